@@ -1,0 +1,130 @@
+"""The ``skyloom`` command: plan, check and describe scenes from a terminal."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from . import SAFETY_CAUTION, __version__
+from .errors import Cancelled, SkyloomError
+from .export import export_plan, load_export
+from .pipeline import plan, with_settings
+from .progress import no_progress
+from .scene import load_scene
+from .terminal_progress import TerminalProgress
+from .verify import spec_from_scene, verify
+
+EXIT_OK, EXIT_UNSAFE, EXIT_BAD_INPUT, EXIT_CANCELLED = 0, 1, 2, 130
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="skyloom",
+        description="Plan collision-free, dynamically feasible trajectories for a fleet of drones, "
+                    "verify them, and export them for flight controllers.",
+        epilog=f"Safety: {SAFETY_CAUTION}",
+    )
+    p.add_argument("--version", action="version", version=f"skyloom {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    pl = sub.add_parser("plan", help="plan a scene's whole timeline, verify it and write an export folder",
+                        description="Plan every transition of SCENE, verify the result over continuous time, "
+                                    "and write trajectories, samples, a report and a 3D file into --out. "
+                                    "A plan that fails verification is not written unless --export-unverified.")
+    pl.add_argument("scene", type=Path, help="scene file (.json, see README: Scene file)")
+    pl.add_argument("--out", type=Path, required=True, help="export folder (replaced only when the new export is complete)")
+    pl.add_argument("--rate", type=float, default=10.0, metavar="HZ", help="samples.csv rate in Hz (default 10)")
+    pl.add_argument("--degree", type=int, help="Bézier degree of each piece (default: the scene's, usually 7)")
+    pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")
+    pl.add_argument("--export-unverified", action="store_true",
+                    help="write the export even if verification fails (every file is then marked UNVERIFIED)")
+    pl.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    ck = sub.add_parser("check", help="re-verify an export folder on its own",
+                        description="Re-read an export folder's trajectories and scene and verify them again.")
+    ck.add_argument("folder", type=Path, help="export folder written by 'skyloom plan'")
+    ck.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    info = sub.add_parser("info", help="validate a scene file and summarise it")
+    info.add_argument("scene", type=Path, help="scene file (.json)")
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        return {"plan": _plan, "check": _check, "info": _info}[args.command](args)
+    except Cancelled:
+        print("skyloom: cancelled", file=sys.stderr)
+        return EXIT_CANCELLED
+    except KeyboardInterrupt:
+        print("\nskyloom: interrupted; nothing was written", file=sys.stderr)
+        return EXIT_CANCELLED
+    except SkyloomError as exc:
+        print(f"skyloom: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+
+
+def _progress(args):
+    return no_progress if args.quiet else TerminalProgress()
+
+
+def _plan(args) -> int:
+    scene = load_scene(args.scene)
+    progress = _progress(args)
+    result = plan(scene, settings=with_settings(scene, degree=args.degree, profile=args.profile), progress=progress)
+    if isinstance(progress, TerminalProgress):
+        progress.close()
+    for t in result.transitions:
+        print(f"{t.source} → {t.target}: {t.mode} ({t.assignment.method}), {t.duration:.2f} s "
+              f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the trapezoidal lower bound)")
+    print("stage times: " + ", ".join(f"{k} {v:.2f} s" for k, v in result.stage_seconds.items()))
+    print("\n".join(result.report.summary_lines()))
+    if not result.report.ok:
+        for v in result.report.violations[:20]:
+            print("  " + v.describe())
+        if len(result.report.violations) > 20:
+            print(f"  ... and {len(result.report.violations) - 20} more")
+        print("Straight-line transitions conflict here; the roadmap planner resolves such cases.")
+    if result.report.ok or args.export_unverified:
+        export_plan(result, args.out, sample_rate_hz=args.rate, allow_unverified=args.export_unverified)
+        print(f"wrote {args.out}/" + ("" if result.report.ok else " (marked UNVERIFIED)"))
+    else:
+        print(f"nothing written to {args.out} (use --export-unverified to write it marked UNVERIFIED)")
+    print(f"Safety: {SAFETY_CAUTION}")
+    return EXIT_OK if result.report.ok else EXIT_UNSAFE
+
+
+def _check(args) -> int:
+    scene, traj, manifest = load_export(args.folder)
+    progress = _progress(args)
+    report = verify(traj, spec_from_scene(scene), progress=progress)
+    if isinstance(progress, TerminalProgress):
+        progress.close()
+    print("\n".join(report.summary_lines()))
+    for v in report.violations[:20]:
+        print("  " + v.describe())
+    if manifest.get("verified") and not report.ok:
+        print("warning: the export claims it was verified, but this check fails", file=sys.stderr)
+    print(f"Safety: {SAFETY_CAUTION}")
+    return EXIT_OK if report.ok else EXIT_UNSAFE
+
+
+def _info(args) -> int:
+    scene = load_scene(args.scene)
+    v = scene.site.flight_volume
+    print(f"{scene.name}: {len(scene.fleet.drones)} drones of {len(scene.fleet.types)} type(s), "
+          f"{len(scene.formations)} formations, {len(scene.timeline.transitions)} transitions")
+    print(f"  flight volume {v.lower} to {v.upper} m; {len(scene.site.keep_out)} keep-out boxes, "
+          f"{len(scene.site.meshes)} meshes")
+    for t in scene.fleet.types:
+        print(f"  type {t.name}: radii {t.radius_xy} m / {t.radius_z} m (+{t.tracking_margin} m), speed "
+              f"{t.max_speed_xy} / {t.max_speed_z} m/s, acceleration {t.max_acceleration} m/s²")
+    order = [scene.timeline.start] + [f"{t.to} ({t.assignment}, {t.duration})" for t in scene.timeline.transitions]
+    print("  timeline: " + " → ".join(order))
+    return EXIT_OK
+
+
+if __name__ == "__main__":
+    sys.exit(main())

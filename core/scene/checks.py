@@ -1,0 +1,141 @@
+"""Consistency checks of a parsed scene: references, counts, spacing, volume and keep-out boxes."""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+
+from ..clearance import ClearanceModel
+from .model import Scene
+
+MAX_LISTED = 5  # problems listed per kind before "and N more"
+
+
+def box_distance_ratio(points: np.ndarray, bounds: np.ndarray, semi_axes: np.ndarray) -> np.ndarray:
+    """Distance ``(M,)`` from points ``(M, 3)`` to an axis-aligned box ``(2, 3)``, in units of the
+    ellipsoid half-axes ``(3,)`` or ``(M, 3)``: < 1 means the clearance ellipsoid touches the box."""
+    gap = np.maximum(bounds[0] - points, 0.0) + np.maximum(points - bounds[1], 0.0)
+    return np.linalg.norm(gap / semi_axes, axis=-1)
+
+
+def check_scene(scene: Scene, source: str) -> list[tuple[str, str]]:
+    """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound."""
+    problems: list[tuple[str, str]] = []
+    problems += _check_names(scene, source)
+    if problems:
+        return problems
+    problems += _check_fleet(scene, source)
+    problems += _check_site(scene, source)
+    problems += _check_formations(scene, source)
+    problems += _check_timeline(scene, source)
+    return problems
+
+
+def _duplicates(names: list[str]) -> list[str]:
+    return [n for n, c in Counter(names).items() if c > 1]
+
+
+def _check_names(scene: Scene, source: str) -> list[tuple[str, str]]:
+    out = []
+    for field, names in (
+        ("fleet.types", [t.name for t in scene.fleet.types]),
+        ("fleet.drones", [d.id for d in scene.fleet.drones]),
+        ("formations", [f.name for f in scene.formations]),
+    ):
+        for dup in _duplicates(names):
+            out.append((f"{source}: {field}", f"name {dup!r} is used more than once"))
+    types = {t.name for t in scene.fleet.types}
+    for i, d in enumerate(scene.fleet.drones):
+        if d.type not in types:
+            out.append((f"{source}: fleet.drones[{i}].type", f"unknown drone type {d.type!r}"))
+    return out
+
+
+def _check_fleet(scene: Scene, source: str) -> list[tuple[str, str]]:
+    out = []
+    for k, t in enumerate(scene.fleet.types):
+        if t.radius_z <= t.radius_xy:
+            out.append((
+                f"{source}: fleet.types[{k}].radius_z",
+                f"must exceed radius_xy ({t.radius_z} <= {t.radius_xy}): rotor downwash needs "
+                "more vertical than horizontal spacing",
+            ))
+    return out
+
+
+def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
+    out = []
+    boxes = [("site.flight_volume", scene.site.flight_volume)]
+    boxes += [(f"site.keep_out[{k}]", b) for k, b in enumerate(scene.site.keep_out)]
+    for where, box in boxes:
+        if np.any(box.bounds[1] <= box.bounds[0]):
+            out.append((f"{source}: {where}", f"upper {box.upper} must exceed lower {box.lower} on every axis"))
+    return out
+
+
+def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
+    out = []
+    n = len(scene.fleet.drones)
+    model = ClearanceModel(scene.fleet.semi_axes)
+    largest_axes = scene.fleet.semi_axes.max(axis=0)
+    volume = scene.site.flight_volume.bounds
+    for k, f in enumerate(scene.formations):
+        where = f"{source}: formations[{k}] ({f.name!r})"
+        if len(f.points) != n:
+            out.append((where, f"has {len(f.points)} points but the fleet has {n} drones"))
+            continue
+        if f.groups is not None and len(f.groups) != len(f.points):
+            out.append((f"{where}.groups", f"has {len(f.groups)} labels for {len(f.points)} points"))
+        p = f.positions
+        outside = np.nonzero(np.any((p < volume[0]) | (p > volume[1]), axis=1))[0]
+        out += _listed(outside, lambda i: (f"{where}.points[{i}]", f"{tuple(p[i])} is outside the flight volume"))
+        for b, box in enumerate(scene.site.keep_out):
+            hit = np.nonzero(box_distance_ratio(p, box.bounds, largest_axes) < 1.0)[0]
+            out += _listed(hit, lambda i, box=box: (
+                f"{where}.points[{i}]",
+                f"{tuple(p[i])} puts a drone's clearance ellipsoid inside keep-out box {box.name!r}",
+            ))
+        # Unlabeled modes may put any drone on any point: use the largest pair shape.
+        pairs, ratios = model.bound_pairs(p, 1.0)
+        out += _listed(range(len(pairs)), lambda m: (
+            f"{where}.points[{pairs[m, 0]}] and points[{pairs[m, 1]}]",
+            f"are closer than the fleet's clearance (separation ratio {ratios[m]:.3f} < 1; "
+            f"distance {np.linalg.norm(p[pairs[m, 0]] - p[pairs[m, 1]]):.3f} m)",
+        ))
+    return out
+
+
+def _listed(indices, describe) -> list[tuple[str, str]]:
+    indices = list(indices)
+    out = [describe(int(i)) for i in indices[:MAX_LISTED]]
+    if len(indices) > MAX_LISTED:
+        where, why = out[-1]
+        out.append((where.split(".points")[0], f"... and {len(indices) - MAX_LISTED} more like this"))
+    return out
+
+
+def _check_timeline(scene: Scene, source: str) -> list[tuple[str, str]]:
+    out = []
+    names = {f.name: f for f in scene.formations}
+    if scene.timeline.start not in names:
+        return [(f"{source}: timeline.start", f"unknown formation {scene.timeline.start!r}")]
+    previous = names[scene.timeline.start]
+    for k, tr in enumerate(scene.timeline.transitions):
+        where = f"{source}: timeline.transitions[{k}]"
+        if tr.to not in names:
+            out.append((f"{where}.to", f"unknown formation {tr.to!r}"))
+            continue
+        target = names[tr.to]
+        if tr.assignment == "grouped":
+            if previous.groups is None or target.groups is None:
+                missing = previous.name if previous.groups is None else target.name
+                out.append((f"{where}.assignment", f"'grouped' needs group labels on formation {missing!r}"))
+            elif Counter(previous.groups) != Counter(target.groups):
+                out.append((
+                    f"{where}.assignment",
+                    f"group sizes differ between {previous.name!r} {dict(Counter(previous.groups))} "
+                    f"and {target.name!r} {dict(Counter(target.groups))}",
+                ))
+        previous = target
+    return out

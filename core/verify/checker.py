@@ -1,0 +1,236 @@
+"""The independent plan checker. It reads trajectories and requirements only; it imports nothing
+from the planning stages, so a planner bug cannot hide itself here.
+
+Every check is continuous-time: margins are sampled, and a sample proves a whole interval safe
+only through a Lipschitz bound taken from the Bézier convex-hull property of the next derivative
+(see :mod:`core.verify.certify`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..clearance import ClearanceModel
+from ..progress import CancelToken, ProgressCallback, no_progress
+from ..scene.checks import box_distance_ratio
+from ..trajectory import FleetTrajectory
+from .certify import SAFE, UNPROVEN, Certificate, certify
+from .report import Violation
+from .spec import VerificationSpec
+
+#: Pairs within ratio ``1 + SEPARATION_INFLATION`` of each other at a coarse sample are re-checked.
+SEPARATION_INFLATION = 0.25
+_TIME_CHUNK = 64
+PEAK_SAMPLES_PER_PIECE = 64
+
+
+@dataclass
+class _Rows:
+    """Intervals to certify: row ``r`` concerns drone ``a[r]`` (and ``b[r]`` for pairs) on
+    ``[t_lo[r], t_hi[r]]`` within piece ``seg[r]``, with margin rate bound ``lipschitz[r]``."""
+
+    a: np.ndarray
+    t_lo: np.ndarray
+    t_hi: np.ndarray
+    seg: np.ndarray
+    lipschitz: np.ndarray
+    b: np.ndarray | None = None
+
+
+def _certify_rows(kind: str, rows: _Rows, margin, traj: FleetTrajectory, ids, measured_of, required_of, describe,
+                  cancel) -> tuple[list[Violation], Certificate]:
+    """Certify ``rows``; one violation per drone (or pair) and piece where it fails.
+
+    measured_of / required_of map worst margins ``(K,)`` and row indices ``(K,)`` to figures;
+    describe(measured, required) gives the violation's text.
+    """
+    cert = certify(margin, rows.lipschitz, rows.t_lo, rows.t_hi, cancel=cancel)
+    bad = np.nonzero(cert.status != SAFE)[0]
+    b = rows.b if rows.b is not None else np.zeros_like(rows.a)
+    order = bad[np.lexsort((cert.worst_margin[bad], rows.seg[bad], b[bad], rows.a[bad]))]
+    key = np.c_[rows.a[order], b[order], rows.seg[order]]
+    worst = order[np.r_[True, np.any(key[1:] != key[:-1], axis=1)]] if len(order) else order
+    positions = traj.evaluate_rows(rows.a[worst], cert.worst_time[worst]) if len(worst) else np.empty((0, 3))
+    measured = measured_of(cert.worst_margin[worst], worst)
+    required = required_of(worst)
+    out = []
+    for k, r in enumerate(worst):
+        drones = (rows.a[r],) if rows.b is None else (rows.a[r], rows.b[r])
+        proven = cert.status[r] != UNPROVEN
+        out.append(Violation(
+            kind=kind, drones=tuple(ids[d] for d in drones), time=float(cert.worst_time[r]),
+            position=tuple(float(c) for c in positions[k]), measured=float(measured[k]), required=float(required[k]),
+            detail=describe(measured[k], required[k], r) + ("" if proven else " (not provable within sampling tolerance)"),
+            proven=bool(proven),
+        ))
+    return out, cert
+
+
+def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress: ProgressCallback = no_progress,
+                     cancel: CancelToken | None = None) -> tuple[list[Violation], np.ndarray, dict, dict]:
+    """Pairwise ellipsoid separation over the whole flight.
+
+    Returns violations, per-drone smallest separation ratio ``(N,)``, the fleet's smallest ratio
+    over time ``{"t", "min_ratio"}`` and sampling facts for the report.
+    """
+    model = ClearanceModel(spec.semi_axes)
+    n, n_seg = traj.n_drones, traj.n_segments
+    scaled_speed = np.linalg.norm(traj.derivative_points(1) / model.bound_radii, axis=-1).max(axis=-1)
+    speed = traj.hull_bound(1)
+    per_drone = np.full(n, np.inf)
+    timeline_t, timeline_min = [], []
+    rows_i, rows_j, rows_lo, rows_hi, rows_seg = [], [], [], [], []
+    largest_cell, samples = 0.0, 0
+    for s in range(n_seg):
+        h = traj.durations[s]
+        rate = 2.0 * scaled_speed[:, s].max()  # bound on d(ratio)/dt for any pair, per second
+        cells = 1 if rate == 0 else int(np.ceil(rate * h / (2 * SEPARATION_INFLATION)))
+        width = h / cells
+        delta = rate * width / 2
+        largest_cell = max(largest_cell, width)
+        centres = traj.breaks[s] + width * (np.arange(cells) + 0.5)
+        for lo in range(0, cells, _TIME_CHUNK):
+            if cancel is not None:
+                cancel.check()
+            chunk = centres[lo:lo + _TIME_CHUNK]
+            positions = traj.evaluate(chunk)
+            for t, pos in zip(chunk, positions, strict=True):
+                pairs, _, nearest = model.neighbourhood(pos, 1.0 + delta)
+                np.minimum(per_drone, nearest, out=per_drone)
+                timeline_t.append(t)
+                timeline_min.append(nearest.min() if n > 1 else np.inf)
+                rows_i.append(pairs[:, 0])
+                rows_j.append(pairs[:, 1])
+                rows_lo.append(np.full(len(pairs), t - width / 2))
+                rows_hi.append(np.full(len(pairs), t + width / 2))
+                rows_seg.append(np.full(len(pairs), s))
+            samples += len(chunk)
+            progress("verification", (s + lo / cells) / n_seg, f"separation: piece {s + 1}/{n_seg}")
+    i, j, t_lo, t_hi, seg = (np.concatenate(x) if x else np.empty(0) for x in
+                             (rows_i, rows_j, rows_lo, rows_hi, rows_seg))
+    i, j, seg = i.astype(np.intp), j.astype(np.intp), seg.astype(np.intp)
+    radii = model.radii(i, j)
+    rows = _Rows(i, t_lo, t_hi, seg, (speed[i, seg] + speed[j, seg]) / radii.min(axis=1), b=j)
+
+    def margin(r, t):
+        gap = traj.evaluate_rows(i[r], t) - traj.evaluate_rows(j[r], t)
+        return np.linalg.norm(gap / radii[r], axis=-1) - 1.0
+
+    violations, cert = _certify_rows(
+        "separation", rows, margin, traj, spec.drone_ids,
+        measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
+        describe=lambda m, req, r: (f"separation ratio {m:.3f} < 1 (pair clearance {radii[r, 0]:.2f} m "
+                                    f"sideways, {radii[r, 2]:.2f} m vertically)"),
+        cancel=cancel)
+    np.minimum.at(per_drone, i, cert.worst_margin + 1.0)
+    np.minimum.at(per_drone, j, cert.worst_margin + 1.0)
+    facts = {
+        "separation_samples": samples,
+        "separation_largest_interval_s": largest_cell,
+        "separation_candidate_intervals": int(len(i)),
+        "separation_evaluations": int(cert.evaluations),
+    }
+    return violations, per_drone, {"t": timeline_t, "min_ratio": timeline_min}, facts
+
+
+_LIMIT_KINDS = (
+    # kind, limit column, axes of the limited quantity, derivative order, label, unit
+    ("speed_xy", 0, slice(0, 2), 1, "horizontal speed", "m/s"),
+    ("speed_z", 1, slice(2, 3), 1, "vertical speed", "m/s"),
+    ("acceleration", 2, slice(0, 3), 2, "acceleration", "m/s²"),
+)
+
+
+def check_limits(traj: FleetTrajectory, spec: VerificationSpec, *,
+                 cancel: CancelToken | None = None) -> tuple[list[Violation], dict[str, np.ndarray]]:
+    """Speed and acceleration limits over continuous time; returns violations and per-drone
+    largest sampled values ``{kind: (N,)}`` where the convex hull alone did not prove the limit."""
+    n, n_seg = traj.n_drones, traj.n_segments
+    drone, seg = np.divmod(np.arange(n * n_seg), n_seg)
+    violations, peaks = [], {}
+    for kind, column, axes, order, label, unit in _LIMIT_KINDS:
+        allowed = spec.limits[drone, column] * (1.0 + spec.tolerance)
+        todo = np.nonzero(traj.hull_bound(order, axes).ravel() > allowed)[0]  # others: hull proves it
+        d, sg = drone[todo], seg[todo]
+        rows = _Rows(d, traj.breaks[sg], traj.breaks[sg + 1], sg, traj.hull_bound(order + 1, axes).ravel()[todo])
+
+        def margin(r, t, d=d, axes=axes, order=order, allowed=allowed[todo]):
+            return allowed[r] - np.linalg.norm(traj.evaluate_rows(d[r], t, order)[:, axes], axis=-1)
+
+        found, cert = _certify_rows(
+            kind, rows, margin, traj, spec.drone_ids,
+            measured_of=lambda worst, r, a=allowed[todo]: a[r] - worst,
+            required_of=lambda r, d=d, column=column: spec.limits[d[r], column],
+            describe=lambda m, req, r, label=label, unit=unit: f"{label} {m:.3f} {unit} > limit {req:.3f} {unit}",
+            cancel=cancel)
+        violations += found
+        peak = np.zeros(n)
+        np.maximum.at(peak, d, allowed[todo] - cert.worst_margin)
+        peaks[kind] = peak
+    return violations, peaks
+
+
+def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
+                   cancel: CancelToken | None = None) -> list[Violation]:
+    """Drone centres inside the flight volume; clearance ellipsoids clear of every keep-out box.
+
+    Pieces whose control points (plus clearance) already satisfy the rule are proven by the
+    convex hull and skipped.
+    """
+    n, n_seg = traj.n_drones, traj.n_segments
+    drone, seg = np.divmod(np.arange(n * n_seg), n_seg)
+    points = traj.control_points.reshape(n * n_seg, -1, 3)
+    low, high = points.min(axis=1), points.max(axis=1)
+    speed = traj.hull_bound(1).ravel()
+    axes = spec.semi_axes[drone]
+    volume = spec.flight_volume
+    checks = [("flight_volume", None, np.any((low < volume[0]) | (high > volume[1]), axis=1))]
+    checks += [("keep_out", (name, box), np.all((high + axes > box[0]) & (low - axes < box[1]), axis=1))
+               for name, box in spec.keep_out]
+    violations = []
+    for kind, named_box, needs_check in checks:
+        todo = np.nonzero(needs_check)[0]
+        d, sg = drone[todo], seg[todo]
+        if named_box is None:
+            rate = speed[todo]
+
+            def margin(r, t, d=d):
+                p = traj.evaluate_rows(d[r], t)
+                return np.minimum(p - volume[0], volume[1] - p).min(axis=1)
+
+            describe = lambda m, req, r: f"{m:.3f} m outside the flight volume"  # noqa: E731
+            measured_of = lambda worst, r: -worst  # noqa: E731
+            required_of = lambda r: np.zeros(len(r))  # noqa: E731
+        else:
+            name, box = named_box
+            rate = speed[todo] / spec.semi_axes[d].min(axis=1)
+
+            def margin(r, t, d=d, box=box):
+                return box_distance_ratio(traj.evaluate_rows(d[r], t), box, spec.semi_axes[d[r]]) - 1.0
+
+            describe = lambda m, req, r, name=name: (  # noqa: E731
+                f"clearance ellipsoid enters keep-out box {name!r} (distance ratio {m:.3f} < 1)")
+            measured_of = lambda worst, r: worst + 1.0  # noqa: E731
+            required_of = lambda r: np.ones(len(r))  # noqa: E731
+        found, _ = _certify_rows(kind, _Rows(d, traj.breaks[sg], traj.breaks[sg + 1], sg, rate), margin, traj,
+                                 spec.drone_ids, measured_of, required_of, describe, cancel)
+        violations += found
+    return violations
+
+
+def sampled_peaks(traj: FleetTrajectory) -> dict[str, np.ndarray]:
+    """Per-drone peaks ``(N,)`` on a grid of :data:`PEAK_SAMPLES_PER_PIECE` samples per piece."""
+    tau = (np.arange(PEAK_SAMPLES_PER_PIECE) + 0.5) / PEAK_SAMPLES_PER_PIECE
+    grid = np.concatenate([traj.breaks[:-1, None] + traj.durations[:, None] * tau[None, :]]).ravel()
+    grid = np.r_[grid, traj.breaks]
+    out = {}
+    for name, order, axes in (("speed_xy", 1, slice(0, 2)), ("speed_z", 1, slice(2, 3)), ("acceleration", 2, slice(None)),
+                              ("jerk", 3, slice(None)), ("snap", 4, slice(None))):
+        peak = np.zeros(traj.n_drones)
+        for lo in range(0, len(grid), _TIME_CHUNK):
+            values = np.linalg.norm(traj.evaluate(grid[lo:lo + _TIME_CHUNK], order)[..., axes], axis=-1)
+            np.maximum(peak, values.max(axis=0), out=peak)
+        out[name] = peak
+    return out

@@ -1,0 +1,39 @@
+"""What a plan must satisfy, taken from the scene (not from the planner)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..scene.model import Scene
+
+
+@dataclass(frozen=True, eq=False)
+class VerificationSpec:
+    """Requirements for a fleet of N drones.
+
+    semi_axes : (N, 3) clearance ellipsoid half-axes, metres
+    limits : (N, 3) max horizontal speed, max vertical speed (m/s), max acceleration norm (m/s²)
+    flight_volume : (2, 3) lower/upper corner of the box drone centres must stay in, metres
+    keep_out : names and (2, 3) bounds of boxes no clearance ellipsoid may touch
+    tolerance : relative slack allowed over a speed/acceleration limit (0.01 = 1 %)
+    """
+
+    drone_ids: tuple[str, ...]
+    semi_axes: np.ndarray
+    limits: np.ndarray
+    flight_volume: np.ndarray
+    keep_out: tuple[tuple[str, np.ndarray], ...] = ()
+    tolerance: float = 0.01
+
+
+def spec_from_scene(scene: Scene) -> VerificationSpec:
+    """The requirements stated by ``scene`` (fleet clearance and limits, flight volume, keep-out)."""
+    return VerificationSpec(
+        drone_ids=scene.fleet.ids,
+        semi_axes=scene.fleet.semi_axes,
+        limits=scene.fleet.limits,
+        flight_volume=scene.site.flight_volume.bounds,
+        keep_out=tuple((b.name, b.bounds) for b in scene.site.keep_out),
+    )

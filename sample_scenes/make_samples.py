@@ -1,0 +1,104 @@
+"""Regenerate the sample scenes (invented demo scenarios): ``python sample_scenes/make_samples.py``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from core.assignment import min_sum_of_squares
+from core.clearance import ClearanceModel
+from core.formations import grid, line, ring, sphere
+from core.scene import save_scene, scene_from_dict
+
+HERE = Path(__file__).parent
+
+
+def _spaced_sphere(n: int, center, axes: np.ndarray, ratio: float) -> np.ndarray:
+    """A sphere just large enough that every point is ``ratio`` clear of its neighbours."""
+    model = ClearanceModel(np.repeat(axes[None], n, axis=0))
+    radius = 1.0
+    while True:
+        points = sphere(n, radius, center)
+        _, _, nearest = model.neighbourhood(points, 0.0)
+        if nearest.min() >= ratio:
+            return points
+        radius *= 1.05
+
+
+def meadow_show() -> dict:
+    """196 show drones over an invented festival meadow: ground grid → ring → sphere → ground grid."""
+    n = 196
+    lantern = {"name": "lantern-quad", "radius_xy": 0.35, "radius_z": 0.9, "tracking_margin": 0.1,
+               "max_speed_xy": 4.0, "max_speed_z": 2.5, "max_acceleration": 3.0}
+    axes = np.array([0.45, 0.45, 1.0])
+    pad = grid(n, 3.0, origin=(20.0, 20.0, 0.0))
+    halo = ring(n, 52.0, center=(40.0, 40.0, 35.0))
+    globe = _spaced_sphere(n, (40.0, 40.0, 45.0), axes, 1.6)
+    return {
+        "name": "Lindqvist meadow harvest show",
+        "description": "Invented demo: 196 lantern drones rise from a launch grid into a halo, fold into "
+                       "a globe over the meadow, and land back on the grid. Spectator stand is a keep-out box.",
+        "site": {"flight_volume": {"lower": [-20.0, -20.0, 0.0], "upper": [100.0, 100.0, 70.0]},
+                 "keep_out": [{"name": "spectator stand", "lower": [-15.0, 95.5, 0.0], "upper": [95.0, 99.0, 8.0]}]},
+        "fleet": {"types": [lantern], "drones": [{"id": f"L{k + 1:03d}", "type": "lantern-quad"} for k in range(n)]},
+        "formations": [
+            {"name": "launch grid", "points": pad.round(3).tolist()},
+            {"name": "halo", "points": halo.round(3).tolist()},
+            {"name": "globe", "points": globe.round(3).tolist()},
+        ],
+        "timeline": {"start": "launch grid", "start_hold": 2.0, "transitions": [
+            {"to": "halo", "assignment": "unlabeled", "duration": "fastest", "hold": 4.0},
+            {"to": "globe", "assignment": "unlabeled", "duration": 40.0, "hold": 6.0},
+            {"to": "launch grid", "assignment": "unlabeled", "duration": "fastest", "hold": 0.0},
+        ]},
+    }
+
+
+def lab_eight() -> dict:
+    """Eight nano-quadrotors in an invented indoor arena; one formation comes from a CSV file."""
+    nano = {"name": "nano-quad", "radius_xy": 0.12, "radius_z": 0.3, "tracking_margin": 0.03,
+            "max_speed_xy": 1.5, "max_speed_z": 1.0, "max_acceleration": 2.0}
+    pads = line(8, (-2.1, -2.5, 0.0), (2.1, -2.5, 0.0))
+    colours = ["amber"] * 4 + ["teal"] * 4
+    two_rings = np.r_[ring(4, 1.2, center=(-1.5, 0.5, 1.2)), ring(4, 1.2, center=(1.5, 0.5, 1.6), phase=0.4)]
+    return {
+        "name": "Arena eight",
+        "description": "Invented demo: eight nano quadrotors lift off a pad row, form a cube read from "
+                       "cube.csv (labeled), split into two colour rings and land on pads of their colour (grouped).",
+        "site": {"flight_volume": {"lower": [-4.0, -4.0, 0.0], "upper": [4.0, 4.0, 3.0]},
+                 "keep_out": [{"name": "camera tripod", "lower": [3.2, 3.2, 0.0], "upper": [3.8, 3.8, 1.8]}]},
+        "fleet": {"types": [nano], "drones": [{"id": f"N{k + 1}", "type": "nano-quad"} for k in range(8)]},
+        "formations": [
+            {"name": "pads", "points": pads.round(3).tolist(), "groups": colours},
+            {"name": "cube", "csv": "cube.csv"},
+            {"name": "rings", "points": two_rings.round(3).tolist(), "groups": colours},
+        ],
+        "timeline": {"start": "pads", "start_hold": 1.0, "transitions": [
+            {"to": "cube", "assignment": "labeled", "duration": "fastest", "hold": 2.0},
+            {"to": "rings", "assignment": "grouped", "duration": 8.0, "hold": 2.0},
+            {"to": "pads", "assignment": "grouped", "duration": "fastest", "hold": 0.0},
+        ]},
+    }
+
+
+def write_cube_csv(path: Path) -> None:
+    """Cube corners listed so that pad ``i`` → corner ``i`` is the shortest (non-crossing) pairing."""
+    corners = np.array([(x, y, z) for z in (0.9, 2.1) for y in (-0.8, 0.8) for x in (-0.8, 0.8)])
+    pads = line(8, (-2.1, -2.5, 0.0), (2.1, -2.5, 0.0))
+    scale = np.array([0.3, 0.3, 0.66])
+    corners = corners[min_sum_of_squares(pads / scale, corners / scale).goal_of]
+    colours = ["amber"] * 4 + ["teal"] * 4
+    rows = "".join(f"{x:g},{y:g},{z:g},{g}\n" for (x, y, z), g in zip(corners, colours, strict=True))
+    path.write_text("x,y,z,group\n" + rows)
+
+
+def main() -> None:
+    write_cube_csv(HERE / "cube.csv")
+    for name, build in (("meadow_show.json", meadow_show), ("lab_eight.json", lab_eight)):
+        save_scene(scene_from_dict(build(), source=name, base_dir=HERE), HERE / name)
+        print(f"wrote {HERE / name}")
+
+
+if __name__ == "__main__":
+    main()
