@@ -33,7 +33,8 @@ def _parser() -> argparse.ArgumentParser:
                                     "and write trajectories, samples, a report and a 3D file into --out. "
                                     "A plan that fails verification is not written unless --export-unverified.")
     pl.add_argument("scene", type=Path, help="scene file (.json, see README: Scene file)")
-    pl.add_argument("--out", type=Path, required=True, help="export folder (replaced only when the new export is complete)")
+    pl.add_argument("--out", type=Path, required=True,
+                    help="export folder (replaced only once the new export is complete)")
     pl.add_argument("--rate", type=float, default=10.0, metavar="HZ", help="samples.csv rate in Hz (default 10)")
     pl.add_argument("--degree", type=int, help="Bézier degree of each piece (default: the scene's, usually 7)")
     pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")

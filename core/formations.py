@@ -12,7 +12,8 @@ def grid(n: int, spacing_x: float, spacing_y: float | None = None, origin=(0.0, 
     spacing_y = spacing_x if spacing_y is None else spacing_y
     columns = columns or int(np.ceil(np.sqrt(n)))
     k = np.arange(n)
-    return np.asarray(origin, dtype=np.float64) + np.c_[(k % columns) * spacing_x, (k // columns) * spacing_y, np.zeros(n)]
+    offsets = np.c_[(k % columns) * spacing_x, (k // columns) * spacing_y, np.zeros(n)]
+    return np.asarray(origin, dtype=np.float64) + offsets
 
 
 def ring(n: int, radius: float, center=(0.0, 0.0, 0.0), phase: float = 0.0) -> np.ndarray:

@@ -19,6 +19,10 @@ def box_distance_ratio(points: np.ndarray, bounds: np.ndarray, semi_axes: np.nda
     return np.linalg.norm(gap / semi_axes, axis=-1)
 
 
+def _xyz(point: np.ndarray) -> str:
+    return "(" + ", ".join(f"{c:g}" for c in point) + ")"
+
+
 def check_scene(scene: Scene, source: str) -> list[tuple[str, str]]:
     """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound."""
     problems: list[tuple[str, str]] = []
@@ -89,30 +93,28 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
             out.append((f"{where}.groups", f"has {len(f.groups)} labels for {len(f.points)} points"))
         p = f.positions
         outside = np.nonzero(np.any((p < volume[0]) | (p > volume[1]), axis=1))[0]
-        out += _listed(outside, lambda i: (f"{where}.points[{i}]", f"{tuple(p[i])} is outside the flight volume"))
-        for b, box in enumerate(scene.site.keep_out):
+        out += _listed([(f"{where}.points[{i}]", f"{_xyz(p[i])} is outside the flight volume") for i in outside])
+        for box in scene.site.keep_out:
             hit = np.nonzero(box_distance_ratio(p, box.bounds, largest_axes) < 1.0)[0]
-            out += _listed(hit, lambda i, box=box: (
-                f"{where}.points[{i}]",
-                f"{tuple(p[i])} puts a drone's clearance ellipsoid inside keep-out box {box.name!r}",
-            ))
+            out += _listed([(f"{where}.points[{i}]", f"{_xyz(p[i])} puts a drone's clearance ellipsoid inside "
+                             f"keep-out box {box.name!r}") for i in hit])
         # Unlabeled modes may put any drone on any point: use the largest pair shape.
         pairs, ratios = model.bound_pairs(p, 1.0)
-        out += _listed(range(len(pairs)), lambda m: (
-            f"{where}.points[{pairs[m, 0]}] and points[{pairs[m, 1]}]",
-            f"are closer than the fleet's clearance (separation ratio {ratios[m]:.3f} < 1; "
-            f"distance {np.linalg.norm(p[pairs[m, 0]] - p[pairs[m, 1]]):.3f} m)",
-        ))
+        out += _listed([
+            (f"{where}.points[{i}] and points[{j}]",
+             f"are closer than the fleet's clearance (separation ratio {r:.3f} < 1; "
+             f"distance {np.linalg.norm(p[i] - p[j]):.3f} m)")
+            for (i, j), r in zip(pairs, ratios, strict=True)
+        ])
     return out
 
 
-def _listed(indices, describe) -> list[tuple[str, str]]:
-    indices = list(indices)
-    out = [describe(int(i)) for i in indices[:MAX_LISTED]]
-    if len(indices) > MAX_LISTED:
-        where, why = out[-1]
-        out.append((where.split(".points")[0], f"... and {len(indices) - MAX_LISTED} more like this"))
-    return out
+def _listed(problems: list[tuple[str, str]]) -> list[tuple[str, str]]:
+    """The first :data:`MAX_LISTED` problems, then one line counting the rest."""
+    if len(problems) <= MAX_LISTED:
+        return problems
+    where = problems[MAX_LISTED][0].split(".points")[0]
+    return problems[:MAX_LISTED] + [(where, f"... and {len(problems) - MAX_LISTED} more like this")]
 
 
 def _check_timeline(scene: Scene, source: str) -> list[tuple[str, str]]:

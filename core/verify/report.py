@@ -84,7 +84,8 @@ class VerificationReport:
         return [
             f"Verification {verdict}: {self.n_drones} drones, {self.duration:.2f} s of flight",
             f"  smallest separation ratio {self.min_separation_ratio:.3f} (>= 1 required)",
-            f"  peaks: horizontal speed {peak['peak_speed_xy']:.2f} m/s, vertical speed {peak['peak_speed_z']:.2f} m/s, "
+            f"  peaks: horizontal speed {peak['peak_speed_xy']:.2f} m/s, "
+            f"vertical speed {peak['peak_speed_z']:.2f} m/s, "
             f"acceleration {peak['peak_acceleration']:.2f} m/s², jerk {peak['peak_jerk']:.2f} m/s³, "
             f"snap {peak['peak_snap']:.2f} m/s⁴",
         ]

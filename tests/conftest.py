@@ -1,0 +1,37 @@
+"""Shared builders for small scenes in tests."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from core.scene import scene_from_dict
+
+ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
+
+
+def scene_dict(formations: dict[str, np.ndarray], transitions: list[dict], *, radius_xy=0.2, radius_z=0.5,
+               speed_xy=3.0, speed_z=2.0, accel=2.0, volume=((-50, -50, -1), (50, 50, 50)), keep_out=(),
+               groups: dict[str, list[str]] | None = None) -> dict:
+    """A one-type scene dict whose first formation is the start."""
+    names = list(formations)
+    n = len(formations[names[0]])
+    return {
+        "name": "test",
+        "site": {"flight_volume": {"lower": list(volume[0]), "upper": list(volume[1])},
+                 "keep_out": [{"name": f"box{k}", "lower": list(lo), "upper": list(hi)}
+                              for k, (lo, hi) in enumerate(keep_out)]},
+        "fleet": {"types": [{"name": "q", "radius_xy": radius_xy, "radius_z": radius_z, "max_speed_xy": speed_xy,
+                             "max_speed_z": speed_z, "max_acceleration": accel}],
+                  "drones": [{"id": f"d{i}", "type": "q"} for i in range(n)]},
+        "formations": [{"name": k, "points": np.asarray(v, dtype=float).tolist(),
+                        **({"groups": groups[k]} if groups and k in groups else {})} for k, v in formations.items()],
+        "timeline": {"start": names[0], "transitions": transitions},
+    }
+
+
+@pytest.fixture
+def make_scene():
+    def build(*args, **kwargs):
+        return scene_from_dict(scene_dict(*args, **kwargs))
+    return build

@@ -1,0 +1,145 @@
+"""Export folders and the command line, end to end on the small sample scene."""
+
+import base64
+import csv
+import json
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from conftest import ROOT, scene_dict
+from core import SAFETY_CAUTION
+from core.cli import main
+from core.errors import ExportError, PlanningError
+from core.export import export_plan, load_export
+from core.pipeline import plan
+from core.scene import load_scene, save_scene, scene_from_dict
+
+LAB = ROOT / "sample_scenes" / "lab_eight.json"
+
+
+@pytest.fixture(scope="module")
+def lab_result():
+    return plan(load_scene(LAB))
+
+
+def test_lab_plan_verifies_and_meets_the_timeline(lab_result):
+    assert lab_result.verified
+    fixed = lab_result.transitions[1]
+    assert fixed.duration == 8.0 and fixed.minimum_duration < 8.0
+    # Each drone ends on a pad of its own colour (grouped) and holds labeled goals.
+    scene = lab_result.scene
+    end = lab_result.trajectory.evaluate(np.array([lab_result.trajectory.duration]))[0]
+    pads = scene.formation("pads")
+    for k, p in enumerate(end):
+        match = np.nonzero(np.all(np.isclose(pads.positions, p), axis=1))[0]
+        assert len(match) == 1 and pads.groups[match[0]] == pads.groups[k]
+
+
+def test_export_files_agree_with_each_other(lab_result, tmp_path):
+    out = export_plan(lab_result, tmp_path / "out", sample_rate_hz=20)
+    manifest = json.loads((out / "plan.json").read_text())
+    assert manifest["verified"] and manifest["caution"] == SAFETY_CAUTION
+    for name in manifest["files"]:
+        assert (out / name).is_file(), name
+    # Monomial coefficients reproduce the CSV samples.
+    doc = json.loads((out / "trajectories" / "N3.json").read_text())
+    rows = [r for r in csv.reader(line for line in (out / "samples.csv").open() if not line.startswith("#"))]
+    assert rows[0] == ["drone", "t", "x", "y", "z", "vx", "vy", "vz", "ax", "ay", "az"]
+    n3 = np.array([[float(x) for x in r[1:]] for r in rows[1:] if r[0] == "N3"])
+    for t, *state in n3[::7]:
+        piece = next(p for p in doc["pieces"] if p["start"] <= t <= p["start"] + p["duration"] + 1e-9)
+        local = t - piece["start"]
+        pos = [np.polyval(piece["monomial"][a][::-1], local) for a in "xyz"]
+        vel = [np.polyval(np.polyder(piece["monomial"][a][::-1]), local) for a in "xyz"]
+        np.testing.assert_allclose(pos, state[:3], atol=2e-6)
+        np.testing.assert_allclose(vel, state[3:6], atol=2e-6)
+    # The glTF buffer holds each drone's path (Khronos glTF 2.0: accessor → bufferView → buffer).
+    gltf = json.loads((out / "paths.gltf").read_text())
+    assert gltf["asset"]["version"] == "2.0"
+    blob = base64.b64decode(gltf["buffers"][0]["uri"].split(",", 1)[1])
+    acc = gltf["accessors"][2]
+    view = gltf["bufferViews"][acc["bufferView"]]
+    pts = np.frombuffer(blob, np.float32, acc["count"] * 3, view["byteOffset"]).reshape(-1, 3)
+    np.testing.assert_allclose(pts[0], lab_result.trajectory.evaluate(np.array([0.0]))[0, 2], atol=1e-5)
+    assert gltf["meshes"][2]["primitives"][0]["mode"] == 3  # LINE_STRIP
+
+
+def test_reloaded_export_verifies_again(lab_result, tmp_path):
+    out = export_plan(lab_result, tmp_path / "out")
+    scene, traj, _ = load_export(out)
+    np.testing.assert_allclose(traj.control_points, lab_result.trajectory.control_points)
+    assert main(["check", str(out), "--quiet"]) == 0
+
+
+def test_failed_plan_is_refused_unless_overridden_and_then_marked(tmp_path):
+    swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
+    result = plan(scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}])))
+    assert not result.verified
+    with pytest.raises(ExportError, match="failed verification"):
+        export_plan(result, tmp_path / "out")
+    assert not (tmp_path / "out").exists()
+    out = export_plan(result, tmp_path / "out", allow_unverified=True)
+    for name in ("plan.json", "report.json", "report.txt", "samples.csv", "paths.gltf", "trajectories/d0.json"):
+        assert "UNVERIFIED" in (out / name).read_text(), name
+
+
+def test_export_failure_keeps_the_previous_export(lab_result, tmp_path, monkeypatch):
+    out = export_plan(lab_result, tmp_path / "out")
+    before = (out / "plan.json").read_text()
+    import core.export.folder as folder
+
+    monkeypatch.setattr(folder, "samples_csv", lambda *a: (_ for _ in ()).throw(OSError("disk full")))
+    with pytest.raises(OSError):
+        export_plan(lab_result, tmp_path / "out")
+    assert (out / "plan.json").read_text() == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_too_short_fixed_duration_names_the_minimum():
+    f = {"a": np.array([[0.0, 0, 0], [2.0, 0, 0]]), "b": np.array([[0.0, 0, 9], [2.0, 0, 9]])}
+    scene = scene_from_dict(scene_dict(f, [{"to": "b", "duration": 2.0}], speed_z=2.0))
+    with pytest.raises(PlanningError, match=r"duration 2 s is too short; the limits \(at 95%\) need at least 10\.36 s"):
+        plan(scene)
+
+
+def test_cli_plan_info_and_errors(tmp_path, capsys):
+    assert main(["plan", str(LAB), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    text = capsys.readouterr().out
+    assert "Verification PASSED" in text and "Safety:" in text
+    assert main(["info", str(LAB)]) == 0
+    bad = tmp_path / "bad.json"
+    bad.write_text("{}")
+    assert main(["plan", str(bad), "--out", str(tmp_path / "nothing")]) == 2
+    err = capsys.readouterr().err
+    assert "bad.json: name" in err and "Traceback" not in err
+    assert not (tmp_path / "nothing").exists()
+
+
+def test_cli_conflict_exit_code_and_message(tmp_path, capsys):
+    swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
+    path = tmp_path / "swap.json"
+    save_scene(scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}])), path)
+    assert main(["plan", str(path), "--out", str(tmp_path / "out"), "--quiet"]) == 1
+    text = capsys.readouterr().out
+    assert "separation" in text and "d0 & d1" in text and "nothing written" in text
+    assert not (tmp_path / "out").exists()
+
+
+def test_console_command_runs_as_installed():
+    done = subprocess.run([sys.executable, "-m", "core.cli", "--help"], capture_output=True, text=True, check=True)
+    assert "plan" in done.stdout and "check" in done.stdout and "Safety" in done.stdout
+
+
+def test_core_never_imports_qt():
+    code = ("import sys, importlib, pkgutil, core\n"
+            "class Block:\n"
+            "    def find_spec(self, name, path=None, target=None):\n"
+            "        if name.split('.')[0] in ('PySide6', 'PyQt5', 'PyQt6', 'pyqtgraph', 'shiboken6'):\n"
+            "            raise ImportError('Qt is not allowed in core: ' + name)\n"
+            "sys.meta_path.insert(0, Block())\n"
+            "for m in pkgutil.walk_packages(core.__path__, 'core.'):\n"
+            "    importlib.import_module(m.name)\n")
+    subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)
