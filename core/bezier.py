@@ -61,3 +61,27 @@ def monomial_coefficients(points: np.ndarray, duration) -> np.ndarray:
     in_tau = np.einsum("ki,...id->...kd", bernstein_to_monomial_matrix(n), points)
     h = np.asarray(duration, dtype=np.float64)[..., None, None]
     return in_tau / h ** np.arange(n + 1)[:, None]
+
+
+def split_equal_parts(points: np.ndarray, parts: int) -> np.ndarray:
+    """Control points ``(..., parts, n + 1, D)`` of the curve restricted to ``parts`` equal
+    sub-intervals of [0, 1] (exact, by repeated de Casteljau splits)."""
+    points = np.asarray(points, dtype=np.float64)
+    out = []
+    rest = points
+    for k in range(parts - 1):
+        left, rest = _de_casteljau_split(rest, 1.0 / (parts - k))
+        out.append(left)
+    out.append(rest)
+    return np.stack(out, axis=-3)
+
+
+def _de_casteljau_split(points: np.ndarray, t: float) -> tuple[np.ndarray, np.ndarray]:
+    """Left and right control points of a Bézier curve split at parameter ``t``."""
+    left, right = [points[..., 0, :]], [points[..., -1, :]]
+    level = points
+    while level.shape[-2] > 1:
+        level = (1 - t) * level[..., :-1, :] + t * level[..., 1:, :]
+        left.append(level[..., 0, :])
+        right.append(level[..., -1, :])
+    return np.stack(left, axis=-2), np.stack(right[::-1], axis=-2)

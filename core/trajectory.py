@@ -11,7 +11,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .bezier import bernstein_basis, derivative_control_points, monomial_coefficients
+from .bezier import bernstein_basis, derivative_control_points, monomial_coefficients, split_equal_parts
 
 
 @dataclass(frozen=True, eq=False)
@@ -79,6 +79,15 @@ class FleetTrajectory:
         """Upper bound ``(N, S)`` of the norm of the ``order``-th derivative on each piece, from
         the Bézier convex-hull property (largest norm of its control points over ``axes``)."""
         pts = self.derivative_points(order)[..., axes]
+        return np.linalg.norm(pts, axis=-1).max(axis=-1)
+
+    def hull_bound_parts(self, order: int, parts: int, scale: np.ndarray | None = None) -> np.ndarray:
+        """Like :meth:`hull_bound` on each of ``parts`` equal sub-intervals of every piece →
+        ``(N, S, parts)``; tighter than the whole-piece bound. Values are divided by ``scale``
+        ``(3,)`` per axis before taking norms when it is given."""
+        pts = split_equal_parts(self.derivative_points(order), parts)
+        if scale is not None:
+            pts = pts / scale
         return np.linalg.norm(pts, axis=-1).max(axis=-1)
 
     def locate(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -4,7 +4,7 @@ library: scipy's BPoly and PPoly, Virtanen et al., "SciPy 1.0", Nature Methods 1
 import numpy as np
 from scipy.interpolate import BPoly, PPoly
 
-from core.bezier import elevate_degree
+from core.bezier import elevate_degree, split_equal_parts
 from core.trajectory import FleetTrajectory
 
 
@@ -70,3 +70,14 @@ def test_hull_bound_is_an_upper_bound_on_speed():
     seg, _ = traj.locate(t)
     bound = traj.hull_bound(1)[:, seg].T
     assert np.all(speed <= bound + 1e-9)
+
+
+def test_split_into_equal_parts_reproduces_each_sub_interval():
+    rng = np.random.default_rng(6)
+    points = rng.normal(size=(8, 3))
+    parts = split_equal_parts(points, 5)
+    whole = BPoly(points[:, None, :], [0, 1])
+    u = np.linspace(0, 1, 33)
+    for m in range(5):
+        sub = BPoly(parts[m][:, None, :], [0, 1])
+        np.testing.assert_allclose(sub(u), whole((m + u) / 5), atol=1e-12)

@@ -128,3 +128,13 @@ def test_save_is_atomic_and_keeps_the_old_file_on_failure(tmp_path, monkeypatch)
 def test_scene_json_is_plain_json():
     data = json.loads((SAMPLES / "meadow_show.json").read_text())
     assert data["format"] == "skyloom-scene" and data["version"] == 1
+
+
+def test_missing_mesh_file_is_named(tmp_path):
+    data = scene_dict(_two_formations(), [{"to": "sky"}])
+    data["site"]["meshes"] = [{"name": "bridge", "file": "meshes/bridge.stl", "units": "cm"}]
+    [(where, why)] = _problems(data, base_dir=tmp_path)
+    assert where == "s.json: site.meshes[0].file" and "not found" in why
+    (tmp_path / "meshes").mkdir()
+    (tmp_path / "meshes" / "bridge.stl").write_text("solid x\nendsolid x\n")
+    assert scene_from_dict(data, source="s.json", base_dir=tmp_path).site.meshes[0].units == "cm"

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections import Counter
+from pathlib import Path
 
 import numpy as np
 
@@ -23,14 +24,19 @@ def _xyz(point: np.ndarray) -> str:
     return "(" + ", ".join(f"{c:g}" for c in point) + ")"
 
 
-def check_scene(scene: Scene, source: str) -> list[tuple[str, str]]:
-    """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound."""
+def check_scene(scene: Scene, source: str, base_dir: Path | None = None) -> list[tuple[str, str]]:
+    """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound.
+
+    ``base_dir`` is the folder mesh paths are relative to; without it mesh files are not looked up.
+    """
     problems: list[tuple[str, str]] = []
     problems += _check_names(scene, source)
     if problems:
         return problems
     problems += _check_fleet(scene, source)
     problems += _check_site(scene, source)
+    if base_dir is not None:
+        problems += _check_mesh_files(scene, source, base_dir)
     problems += _check_formations(scene, source)
     problems += _check_timeline(scene, source)
     return problems
@@ -76,6 +82,13 @@ def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
         if np.any(box.bounds[1] <= box.bounds[0]):
             out.append((f"{source}: {where}", f"upper {box.upper} must exceed lower {box.lower} on every axis"))
     return out
+
+
+def _check_mesh_files(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, str]]:
+    return [
+        (f"{source}: site.meshes[{k}].file", f"mesh file {m.file!r} not found (looked in {base_dir})")
+        for k, m in enumerate(scene.site.meshes) if not (base_dir / m.file).is_file()
+    ]
 
 
 def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:

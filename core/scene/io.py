@@ -37,12 +37,13 @@ def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = 
     """Build a checked :class:`Scene` from parsed JSON; CSV formations are read from ``base_dir``."""
     if not isinstance(data, dict):
         raise SceneError([(source, "the top level must be a JSON object")])
-    data = _with_csv_points(data, source, base_dir or Path("."))
+    base_dir = base_dir or Path(".")
+    data = _with_csv_points(data, source, base_dir)
     try:
         scene = _ADAPTER.validate_python(data)
     except ValidationError as exc:
         raise SceneError(_validation_problems(exc, source)) from None
-    problems = check_scene(scene, source)
+    problems = check_scene(scene, source, base_dir)
     if problems:
         raise SceneError(problems)
     return scene

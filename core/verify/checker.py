@@ -22,6 +22,8 @@ from .spec import VerificationSpec
 
 #: Pairs within ratio ``1 + SEPARATION_INFLATION`` of each other at a coarse sample are re-checked.
 SEPARATION_INFLATION = 0.25
+#: Each piece is split into this many windows, each with its own convex-hull speed bound.
+WINDOWS_PER_PIECE = 8
 _TIME_CHUNK = 64
 _DENSE_SAMPLES = 513
 _UNPROVEN_NOTE = " (not provable within sampling tolerance)"
@@ -90,26 +92,27 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
     """
     model = ClearanceModel(spec.semi_axes)
     n, n_seg = traj.n_drones, traj.n_segments
-    scaled_speed = np.linalg.norm(traj.derivative_points(1) / model.bound_radii, axis=-1).max(axis=-1)
-    speed = traj.hull_bound(1)
+    # Speed bounds per window (piece s, part m): the convex hull of each sub-interval's velocity.
+    scaled_speed = traj.hull_bound_parts(1, WINDOWS_PER_PIECE, model.bound_radii)  # (N, S, M), 1/s
+    speed = traj.hull_bound_parts(1, WINDOWS_PER_PIECE)  # (N, S, M), m/s
     per_drone = np.full(n, np.inf)
     timeline_t, timeline_min = [], []
-    rows_i, rows_j, rows_lo, rows_hi, rows_seg = [], [], [], [], []
+    rows_i, rows_j, rows_lo, rows_hi, rows_win = [], [], [], [], []
     largest_cell, samples = 0.0, 0
-    for s in range(n_seg):
-        h = traj.durations[s]
-        rate = 2.0 * scaled_speed[:, s].max()  # bound on d(ratio)/dt for any pair, per second
+    windows = [(s, m) for s in range(n_seg) for m in range(WINDOWS_PER_PIECE)]
+    for w, (s, m) in enumerate(windows):
+        h = traj.durations[s] / WINDOWS_PER_PIECE
+        rate = 2.0 * scaled_speed[:, s, m].max()  # bound on d(ratio)/dt for any pair, per second
         cells = 1 if rate == 0 else int(np.ceil(rate * h / (2 * SEPARATION_INFLATION)))
         width = h / cells
         delta = rate * width / 2
         largest_cell = max(largest_cell, width)
-        centres = traj.breaks[s] + width * (np.arange(cells) + 0.5)
+        centres = traj.breaks[s] + m * h + width * (np.arange(cells) + 0.5)
         for lo in range(0, cells, _TIME_CHUNK):
             if cancel is not None:
                 cancel.check()
             chunk = centres[lo:lo + _TIME_CHUNK]
-            positions = traj.evaluate(chunk)
-            for t, pos in zip(chunk, positions, strict=True):
+            for t, pos in zip(chunk, traj.evaluate(chunk), strict=True):
                 pairs, _, nearest = model.neighbourhood(pos, 1.0 + delta)
                 np.minimum(per_drone, nearest, out=per_drone)
                 timeline_t.append(t)
@@ -118,14 +121,15 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
                 rows_j.append(pairs[:, 1])
                 rows_lo.append(np.full(len(pairs), t - width / 2))
                 rows_hi.append(np.full(len(pairs), t + width / 2))
-                rows_seg.append(np.full(len(pairs), s))
+                rows_win.append(np.full(len(pairs), w))
             samples += len(chunk)
-            progress("verification", (s + lo / cells) / n_seg, f"separation: piece {s + 1}/{n_seg}")
-    i, j, t_lo, t_hi, seg = (np.concatenate(x) if x else np.empty(0) for x in
-                             (rows_i, rows_j, rows_lo, rows_hi, rows_seg))
-    i, j, seg = i.astype(np.intp), j.astype(np.intp), seg.astype(np.intp)
+        progress("verification", 0.7 * (w + 1) / len(windows), f"separation: piece {s + 1}/{n_seg}")
+    i, j, t_lo, t_hi, win = (np.concatenate(x) if x else np.empty(0) for x in
+                             (rows_i, rows_j, rows_lo, rows_hi, rows_win))
+    i, j, win = i.astype(np.intp), j.astype(np.intp), win.astype(np.intp)
+    seg, part = win // WINDOWS_PER_PIECE, win % WINDOWS_PER_PIECE
     radii = model.radii(i, j)
-    rows = _Rows(i, t_lo, t_hi, seg, (speed[i, seg] + speed[j, seg]) / radii.min(axis=1), b=j)
+    rows = _Rows(i, t_lo, t_hi, seg, (speed[i, seg, part] + speed[j, seg, part]) / radii.min(axis=1), b=j)
 
     def margin(r, t):
         gap = traj.evaluate_rows(i[r], t) - traj.evaluate_rows(j[r], t)
