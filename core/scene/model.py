@@ -38,16 +38,10 @@ class Box:
 
 
 @dataclass(config=_STRICT)
-class NamedBox:
+class NamedBox(Box):
     """A keep-out box: no drone's clearance ellipsoid may touch it."""
 
     name: Name
-    lower: Vec3
-    upper: Vec3
-
-    @property
-    def bounds(self) -> np.ndarray:
-        return np.array([self.lower, self.upper], dtype=np.float64)
 
 
 @dataclass(config=_STRICT)
