@@ -143,3 +143,36 @@ def test_core_never_imports_qt():
             "for m in pkgutil.walk_packages(core.__path__, 'core.'):\n"
             "    importlib.import_module(m.name)\n")
     subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)
+
+
+def test_cancelled_plan_stops_with_cancelled():
+    from core.errors import Cancelled
+    from core.progress import CancelToken
+
+    token = CancelToken()
+    token.cancel()
+    with pytest.raises(Cancelled):
+        plan(load_scene(LAB), cancel=token)
+
+
+def test_progress_reaches_every_stage():
+    seen = []
+    plan(load_scene(LAB), progress=lambda stage, fraction, message: seen.append((stage, fraction)))
+    assert {"assignment", "verification"} <= {s for s, _ in seen}
+    assert all(0.0 <= f <= 1.0 for _, f in seen) and seen[-1] == ("verification", 1.0)
+
+
+def test_terminal_progress_draws_a_bar_on_a_terminal():
+    import io
+
+    from core.terminal_progress import TerminalProgress
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    stream = Tty()
+    bar = TerminalProgress(stream, width=10, min_interval_s=0.0)
+    bar("verification", 0.5, "separation")
+    bar.close()
+    assert "[#####-----]  50% separation" in stream.getvalue()

@@ -201,38 +201,35 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
     points = traj.control_points.reshape(n * n_seg, -1, 3)
     low, high = points.min(axis=1), points.max(axis=1)
     speed = traj.hull_bound(1).ravel()
-    axes = spec.semi_axes[drone]
     volume = spec.flight_volume
-    checks = [("flight_volume", None, np.any((low < volume[0]) | (high > volume[1]), axis=1))]
-    checks += [("keep_out", (name, box), np.all((high + axes > box[0]) & (low - axes < box[1]), axis=1))
-               for name, box in spec.keep_out]
-    violations = []
-    for kind, named_box, needs_check in checks:
+
+    def rows_where(needs_check: np.ndarray, rate: np.ndarray) -> _Rows:
         todo = np.nonzero(needs_check)[0]
-        d, sg = drone[todo], seg[todo]
-        if named_box is None:
-            rate = speed[todo]
+        return _Rows(drone[todo], traj.breaks[seg[todo]], traj.breaks[seg[todo] + 1], seg[todo], rate[todo])
 
-            def margin(r, t, d=d):
-                p = traj.evaluate_rows(d[r], t)
-                return np.minimum(p - volume[0], volume[1] - p).min(axis=1)
+    rows = rows_where(np.any((low < volume[0]) | (high > volume[1]), axis=1), speed)
 
-            describe = lambda m, req, r: f"{m:.3f} m outside the flight volume"  # noqa: E731
-            measured_of = lambda worst, r: -worst  # noqa: E731
-            required_of = lambda r: np.zeros(len(r))  # noqa: E731
-        else:
-            name, box = named_box
-            rate = speed[todo] / spec.semi_axes[d].min(axis=1)
+    def inside(r, t, d=rows.a):
+        p = traj.evaluate_rows(d[r], t)
+        return np.minimum(p - volume[0], volume[1] - p).min(axis=1)
 
-            def margin(r, t, d=d, box=box):
-                return box_distance_ratio(traj.evaluate_rows(d[r], t), box, spec.semi_axes[d[r]]) - 1.0
+    violations, _ = _certify_rows(
+        "flight_volume", rows, inside, traj, spec.drone_ids,
+        measured_of=lambda worst, r: -worst, required_of=lambda r: np.zeros(len(r)),
+        describe=lambda m, req, r: f"{m:.3f} m outside the flight volume", cancel=cancel)
+    axes = spec.semi_axes[drone]
+    for name, box in spec.keep_out:
+        rows = rows_where(np.all((high + axes > box[0]) & (low - axes < box[1]), axis=1), speed / axes.min(axis=1))
 
-            describe = lambda m, req, r, name=name: (  # noqa: E731
-                f"clearance ellipsoid enters keep-out box {name!r} (distance ratio {m:.3f} < 1)")
-            measured_of = lambda worst, r: worst + 1.0  # noqa: E731
-            required_of = lambda r: np.ones(len(r))  # noqa: E731
-        found, _ = _certify_rows(kind, _Rows(d, traj.breaks[sg], traj.breaks[sg + 1], sg, rate), margin, traj,
-                                 spec.drone_ids, measured_of, required_of, describe, cancel)
+        def clear(r, t, d=rows.a, box=box):
+            return box_distance_ratio(traj.evaluate_rows(d[r], t), box, spec.semi_axes[d[r]]) - 1.0
+
+        found, _ = _certify_rows(
+            "keep_out", rows, clear, traj, spec.drone_ids,
+            measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
+            describe=lambda m, req, r, name=name: (
+                f"clearance ellipsoid enters keep-out box {name!r} (distance ratio {m:.3f} < 1)"),
+            cancel=cancel)
         violations += found
     return violations
 
