@@ -65,6 +65,13 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, progress: Pro
     """
     cancel = cancel or CancelToken()
     settings = settings or scene.planner
+    if scene.site.meshes:
+        # The straight-line planner and the verifier do not model meshes yet: planning would
+        # fly through them and call the plan safe. Refuse instead.
+        names = ", ".join(repr(m.name) for m in scene.site.meshes)
+        raise PlanningError(f"site.meshes ({names}): obstacle meshes cannot be planned around or verified yet; "
+                            "remove them from the scene (keep-out boxes are supported) until the obstacle "
+                            "planner is available")
     profile = PROFILES[settings.profile]
     if profile.degree > settings.degree:
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "

@@ -176,3 +176,14 @@ def test_terminal_progress_draws_a_bar_on_a_terminal():
     bar("verification", 0.5, "separation")
     bar.close()
     assert "[#####-----]  50% separation" in stream.getvalue()
+
+
+def test_scene_with_meshes_is_refused_until_meshes_are_checked(tmp_path):
+    # Planning straight through an unmodelled mesh and calling it verified would be unsafe.
+    (tmp_path / "tower.stl").write_text("solid t\nendsolid t\n")
+    f = {"a": np.array([[0.0, 0, 0], [2.0, 0, 0]]), "b": np.array([[0.0, 0, 5], [2.0, 0, 5]])}
+    data = scene_dict(f, [{"to": "b"}])
+    data["site"]["meshes"] = [{"name": "tower", "file": "tower.stl"}]
+    scene = scene_from_dict(data, base_dir=tmp_path)
+    with pytest.raises(PlanningError, match=r"site.meshes \('tower'\): obstacle meshes cannot be planned"):
+        plan(scene)
