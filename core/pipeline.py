@@ -103,17 +103,8 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, progress: Pro
         t0 = time.perf_counter()
         goals = target.positions[chosen.goal_of]
         legs = goals - positions
-        needed = max(float(minimum_duration(legs, limits, profile).max()), MIN_TRANSITION_DURATION)
-        if tr.duration == "fastest":
-            duration = needed
-        elif tr.duration < needed:
-            slowest = int(np.argmax(minimum_duration(legs, limits, profile)))
-            raise PlanningError(
-                f"timeline.transitions[{k}] ({current.name} → {target.name}): duration {tr.duration:g} s is too "
-                f"short; the limits (at {settings.limit_margin:.0%}) need at least {needed:.2f} s "
-                f"(longest leg: drone {scene.fleet.drones[slowest].id}, {np.linalg.norm(legs[slowest]):.2f} m)")
-        else:
-            duration = float(tr.duration)
+        duration, needed = _transition_duration(f"timeline.transitions[{k}] ({current.name} → {target.name})",
+                                                tr.duration, legs, limits, profile, scene, settings)
         durations.append(duration)
         pieces.append(straight_leg_points(positions, goals, profile, settings.degree))
         labels.append(f"{current.name} → {target.name}")
@@ -138,6 +129,26 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, progress: Pro
     report = verify(trajectory, spec_from_scene(scene), progress=progress, cancel=cancel)
     timings["verification"] = time.perf_counter() - t0
     return PlanResult(scene, settings, trajectory, transitions, report, timings)
+
+
+def _transition_duration(where: str, requested, legs: np.ndarray, limits: np.ndarray, profile, scene: Scene,
+                         settings: PlannerSettings) -> tuple[float, float]:
+    """Duration to fly ``legs`` ``(N, 3)`` and the minimum the (margined) ``limits`` allow, seconds.
+
+    ``requested`` is ``"fastest"`` or seconds; a request below the minimum raises :class:`PlanningError`
+    naming the transition, the minimum and the drone with the longest leg.
+    """
+    per_drone = minimum_duration(legs, limits, profile)
+    needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
+    if requested == "fastest":
+        return needed, needed
+    if requested < needed:
+        slowest = int(np.argmax(per_drone))
+        raise PlanningError(
+            f"{where}: duration {requested:g} s is too short; the limits (at {settings.limit_margin:.0%}) need "
+            f"at least {needed:.2f} s (longest leg: drone {scene.fleet.drones[slowest].id}, "
+            f"{np.linalg.norm(legs[slowest]):.2f} m)")
+    return float(requested), needed
 
 
 def with_settings(scene: Scene, **changes) -> PlannerSettings:
