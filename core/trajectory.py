@@ -81,14 +81,10 @@ class FleetTrajectory:
         pts = self.derivative_points(order)[..., axes]
         return np.linalg.norm(pts, axis=-1).max(axis=-1)
 
-    def hull_bound_parts(self, order: int, parts: int, scale: np.ndarray | None = None) -> np.ndarray:
-        """Like :meth:`hull_bound` on each of ``parts`` equal sub-intervals of every piece →
-        ``(N, S, parts)``; tighter than the whole-piece bound. Values are divided by ``scale``
-        ``(3,)`` per axis before taking norms when it is given."""
-        pts = split_equal_parts(self.derivative_points(order), parts)
-        if scale is not None:
-            pts = pts / scale
-        return np.linalg.norm(pts, axis=-1).max(axis=-1)
+    def window_points(self, order: int, parts: int) -> np.ndarray:
+        """Control points ``(N, S, parts, n + 1 - order, 3)`` of the ``order``-th derivative on each
+        of ``parts`` equal sub-intervals of every piece (their hulls bound it more tightly)."""
+        return split_equal_parts(self.derivative_points(order), parts)
 
     def locate(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Piece index ``(T,)`` and local parameter ``tau`` ``(T,)`` for times ``t`` (clamped)."""

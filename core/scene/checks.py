@@ -24,19 +24,16 @@ def _xyz(point: np.ndarray) -> str:
     return "(" + ", ".join(f"{c:g}" for c in point) + ")"
 
 
-def check_scene(scene: Scene, source: str, base_dir: Path | None = None) -> list[tuple[str, str]]:
+def check_scene(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, str]]:
     """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound.
-
-    ``base_dir`` is the folder mesh paths are relative to; without it mesh files are not looked up.
-    """
+    ``base_dir`` is the folder mesh paths are relative to."""
     problems: list[tuple[str, str]] = []
     problems += _check_names(scene, source)
     if problems:
         return problems
     problems += _check_fleet(scene, source)
     problems += _check_site(scene, source)
-    if base_dir is not None:
-        problems += _check_mesh_files(scene, source, base_dir)
+    problems += _check_mesh_files(scene, source, base_dir)
     problems += _check_formations(scene, source)
     problems += _check_timeline(scene, source)
     return problems

@@ -93,8 +93,9 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
     model = ClearanceModel(spec.semi_axes)
     n, n_seg = traj.n_drones, traj.n_segments
     # Speed bounds per window (piece s, part m): the convex hull of each sub-interval's velocity.
-    scaled_speed = traj.hull_bound_parts(1, WINDOWS_PER_PIECE, model.bound_radii)  # (N, S, M), 1/s
-    speed = traj.hull_bound_parts(1, WINDOWS_PER_PIECE)  # (N, S, M), m/s
+    velocity = traj.window_points(1, WINDOWS_PER_PIECE)
+    scaled_speed = np.linalg.norm(velocity / model.bound_radii, axis=-1).max(axis=-1)  # (N, S, M), 1/s
+    speed = np.linalg.norm(velocity, axis=-1).max(axis=-1)  # (N, S, M), m/s
     per_drone = np.full(n, np.inf)
     timeline_t, timeline_min = [], []
     rows_i, rows_j, rows_lo, rows_hi, rows_win = [], [], [], [], []
@@ -116,7 +117,7 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
                 pairs, _, nearest = model.neighbourhood(pos, 1.0 + delta)
                 np.minimum(per_drone, nearest, out=per_drone)
                 timeline_t.append(t)
-                timeline_min.append(nearest.min() if n > 1 else np.inf)
+                timeline_min.append(nearest.min())
                 rows_i.append(pairs[:, 0])
                 rows_j.append(pairs[:, 1])
                 rows_lo.append(np.full(len(pairs), t - width / 2))
@@ -237,8 +238,7 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
 def sampled_peaks(traj: FleetTrajectory) -> dict[str, np.ndarray]:
     """Per-drone peaks ``(N,)`` on a grid of :data:`PEAK_SAMPLES_PER_PIECE` samples per piece."""
     tau = (np.arange(PEAK_SAMPLES_PER_PIECE) + 0.5) / PEAK_SAMPLES_PER_PIECE
-    grid = np.concatenate([traj.breaks[:-1, None] + traj.durations[:, None] * tau[None, :]]).ravel()
-    grid = np.r_[grid, traj.breaks]
+    grid = np.r_[(traj.breaks[:-1, None] + traj.durations[:, None] * tau[None, :]).ravel(), traj.breaks]
     out = {}
     quantities = (("speed_xy", 1, slice(0, 2)), ("speed_z", 1, slice(2, 3)), ("acceleration", 2, slice(None)),
                   ("jerk", 3, slice(None)), ("snap", 4, slice(None)))
