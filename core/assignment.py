@@ -75,16 +75,42 @@ def assign(mode: str, starts: np.ndarray, goals: np.ndarray, scale: np.ndarray,
         return min_sum_of_squares(xs, gs, progress=progress, cancel=cancel)
     if mode != "grouped":
         raise ValueError(f"unknown assignment mode {mode!r}")
+    return _per_group(start_groups, goal_groups,
+                      lambda d, p: min_sum_of_squares(xs[d], gs[p], progress=progress, cancel=cancel))
+
+
+def _per_group(start_groups, goal_groups, solve) -> Assignment:
+    """Solve each group on its own with ``solve(drone indices, point indices)`` and combine."""
     start_groups, goal_groups = np.asarray(start_groups), np.asarray(goal_groups)
-    goal_of = np.empty(n, dtype=np.intp)
+    goal_of = np.empty(len(start_groups), dtype=np.intp)
     cost, gap = 0.0, 0.0
     methods = set()
     for label in np.unique(start_groups):
         drones = np.nonzero(start_groups == label)[0]
         points = np.nonzero(goal_groups == label)[0]
-        sub = min_sum_of_squares(xs[drones], gs[points], progress=progress, cancel=cancel)
+        sub = solve(drones, points)
         goal_of[drones] = points[sub.goal_of]
         cost += sub.cost
         gap += sub.gap_bound
         methods.add(sub.method)
     return Assignment(goal_of, cost, "grouped " + "/".join(sorted(methods)), gap)
+
+
+def min_total_cost(cost: np.ndarray) -> Assignment:
+    """Assignment minimising the sum of ``cost`` ``(n, n)`` (e.g. roadmap path lengths, metres;
+    ``inf`` where a goal cannot be reached). Raises ValueError when no finite assignment exists."""
+    finite = np.isfinite(cost)
+    big = (cost[finite].max() if finite.any() else 1.0) * len(cost) + 1.0
+    rows, cols = linear_sum_assignment(np.where(finite, cost, big))
+    goal_of = cols[np.argsort(rows)]
+    total = cost[np.arange(len(cost)), goal_of]
+    if not np.isfinite(total).all():
+        raise ValueError(f"drones {np.nonzero(~np.isfinite(total))[0].tolist()} cannot reach any free goal")
+    return Assignment(goal_of, float(total.sum()), "hungarian on path lengths", 0.0)
+
+
+def assign_by_cost(cost: np.ndarray, start_groups=None, goal_groups=None) -> Assignment:
+    """Unlabeled (no groups) or grouped assignment on a cost matrix ``(N, N)``; see :func:`min_total_cost`."""
+    if start_groups is None:
+        return min_total_cost(cost)
+    return _per_group(start_groups, goal_groups, lambda d, p: min_total_cost(cost[np.ix_(d, p)]))

@@ -40,6 +40,12 @@ def _parser() -> argparse.ArgumentParser:
     pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")
     pl.add_argument("--export-unverified", action="store_true",
                     help="write the export even if verification fails (every file is then marked UNVERIFIED)")
+    pl.add_argument("--suboptimality", type=float, metavar="W",
+                    help="roadmap search: sum of costs within W × optimal (W ≥ 1; default: the scene's, usually 2)")
+    pl.add_argument("--roadmap-samples", type=int, metavar="N", help="free-space samples for the roadmap")
+    pl.add_argument("--stretch", type=float, help="roadmap spanner stretch factor (≥ 1)")
+    pl.add_argument("--time-limit", type=float, metavar="S", help="roadmap search time limit per transition (s)")
+    pl.add_argument("--no-cache", action="store_true", help="rebuild the roadmap instead of reusing a cached one")
     pl.add_argument("--quiet", action="store_true", help="no progress bar")
 
     ck = sub.add_parser("check", help="re-verify an export folder on its own",
@@ -74,12 +80,28 @@ def _progress(args):
 def _plan(args) -> int:
     scene = load_scene(args.scene)
     progress = _progress(args)
-    result = plan(scene, settings=with_settings(scene, degree=args.degree, profile=args.profile), progress=progress)
+    settings = with_settings(scene, degree=args.degree, profile=args.profile, suboptimality=args.suboptimality,
+                             roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
+                             search_time_limit=args.time_limit)
+    result = plan(scene, settings=settings, base_dir=args.scene.parent, use_cache=not args.no_cache,
+                  progress=progress)
     if isinstance(progress, TerminalProgress):
         progress.close()
+    for warning in result.stats.get("mesh_warnings", []):
+        print(f"warning: {warning}")
     for t in result.transitions:
-        print(f"{t.source} → {t.target}: {t.mode} ({t.assignment.method}), {t.duration:.2f} s "
-              f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the trapezoidal lower bound)")
+        print(f"{t.source} → {t.target}: {t.mode} ({t.assignment.method}), {t.method}, {t.duration:.2f} s "
+              f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the straight-line lower bound)")
+        if t.search:
+            f = t.search
+            print(f"  search: {f['search_nodes']} nodes expanded ({f['low_level_expansions']} low-level), "
+                  f"sum of costs {f['sum_of_costs']} steps (lower bound {f['cost_lower_bound']}, w = {f['w']:g}), "
+                  f"{f['steps']} pieces")
+    if "roadmap_vertices" in result.stats:
+        st = result.stats
+        print(f"roadmap: {st['roadmap_vertices']} vertices, {st['roadmap_edges']} edges, "
+              f"{st['roadmap_conflicts']} conflicting action pairs"
+              + (" (from cache)" if st["roadmap_cached"] else ""))
     print("stage times: " + ", ".join(f"{k} {v:.2f} s" for k, v in result.stage_seconds.items()))
     print("\n".join(result.report.summary_lines()))
     if not result.report.ok:
@@ -87,7 +109,6 @@ def _plan(args) -> int:
             print("  " + v.describe())
         if len(result.report.violations) > 20:
             print(f"  ... and {len(result.report.violations) - 20} more")
-        print("Straight-line transitions conflict here; the roadmap planner resolves such cases.")
     if result.report.ok or args.export_unverified:
         export_plan(result, args.out, sample_rate_hz=args.rate, allow_unverified=args.export_unverified)
         print(f"wrote {args.out}/" + ("" if result.report.ok else " (marked UNVERIFIED)"))
@@ -100,7 +121,7 @@ def _plan(args) -> int:
 def _check(args) -> int:
     scene, traj, manifest = load_export(args.folder)
     progress = _progress(args)
-    report = verify(traj, spec_from_scene(scene), progress=progress)
+    report = verify(traj, spec_from_scene(scene, args.folder), progress=progress)
     if isinstance(progress, TerminalProgress):
         progress.close()
     print("\n".join(report.summary_lines()))

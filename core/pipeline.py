@@ -1,24 +1,28 @@
 """The planning pipeline shared by the CLI and the GUI.
 
-scene → per transition: goal assignment → timing → trajectories → independent verification.
+scene → per transition: goal assignment → straight lines if they are clear, else roadmap search
+(stop at every waypoint) → timing → trajectories → independent verification.
 """
 
 from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 
 from .assignment import Assignment, assign
 from .clearance import ClearanceModel
 from .errors import PlanningError
+from .obstacle_planning import ObstaclePlanner
 from .progress import CancelToken, ProgressCallback, no_progress
 from .scene.model import PlannerSettings, Scene
 from .straight_line import hold_points, straight_leg_points, synchronized_spacing_holds
 from .timing import MIN_TRANSITION_DURATION, PROFILES, minimum_duration, trapezoid_lower_bound
 from .trajectory import FleetTrajectory
-from .verify import VerificationReport, spec_from_scene, verify
+from .verify import VerificationReport, VerificationSpec, spec_from_scene, verify
+from .verify.checker import check_separation
 
 
 @dataclass(frozen=True)
@@ -35,6 +39,7 @@ class TransitionPlan:
     lower_bound: float
     method: str
     spacing_guarantee: bool
+    search: dict = field(default_factory=dict)
 
     @property
     def makespan_ratio(self) -> float:
@@ -50,36 +55,39 @@ class PlanResult:
     transitions: list[TransitionPlan]
     report: VerificationReport
     stage_seconds: dict[str, float] = field(default_factory=dict)
+    stats: dict = field(default_factory=dict)
+    base_dir: Path = Path(".")
 
     @property
     def verified(self) -> bool:
         return self.report.ok
 
 
-def plan(scene: Scene, *, settings: PlannerSettings | None = None, progress: ProgressCallback = no_progress,
+def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str | Path | None = None,
+         use_cache: bool = True, progress: ProgressCallback = no_progress,
          cancel: CancelToken | None = None) -> PlanResult:
     """Plan and verify every transition of ``scene``'s timeline.
 
-    Raises :class:`PlanningError` when a fixed duration is shorter than the limits allow. A plan
-    that fails verification is returned with ``report.ok`` False; callers decide what to do.
+    ``base_dir`` is the folder mesh paths are relative to (the scene file's folder); ``use_cache``
+    reuses roadmaps stored on disk. Raises :class:`PlanningError` (or :class:`SceneError`) naming
+    the transition and drones when no plan can be made. A plan that fails verification is returned
+    with ``report.ok`` False; callers decide what to do.
     """
     cancel = cancel or CancelToken()
     settings = settings or scene.planner
-    if scene.site.meshes:
-        # The straight-line planner and the verifier do not model meshes yet: planning would
-        # fly through them and call the plan safe. Refuse instead.
-        names = ", ".join(repr(m.name) for m in scene.site.meshes)
-        raise PlanningError(f"site.meshes ({names}): obstacle meshes cannot be planned around or verified yet; "
-                            "remove them from the scene (keep-out boxes are supported) until the obstacle "
-                            "planner is available")
+    base_dir = Path(base_dir or ".")
     profile = PROFILES[settings.profile]
     if profile.degree > settings.degree:
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
                             f"(needs at least {profile.degree})")
     limits = scene.fleet.limits * settings.limit_margin
     clearance = ClearanceModel(scene.fleet.semi_axes)
-    scale, homogeneous = clearance.bound_radii, clearance.homogeneous
-    timings: dict[str, float] = {"assignment": 0.0, "trajectories": 0.0}
+    scale = clearance.bound_radii
+    spec = spec_from_scene(scene, base_dir)
+    obstacles = ObstaclePlanner(scene, settings, base_dir, use_cache=use_cache, progress=progress, cancel=cancel)
+    if scene.site.meshes:
+        _ = obstacles.meshes  # read and check them before any planning
+    timings: dict[str, float] = {"assignment": 0.0, "transitions": 0.0}
 
     start = scene.formation(scene.timeline.start)
     positions = start.positions.copy()
@@ -88,59 +96,99 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, progress: Pro
     durations, pieces, labels, transitions = [], [], [], []
     if scene.timeline.start_hold > 0:
         durations.append(scene.timeline.start_hold)
-        pieces.append(hold_points(positions, settings.degree))
+        pieces.append(hold_points(positions, settings.degree)[:, None])
         labels.append(f"hold {start.name}")
     n_tr = len(scene.timeline.transitions)
     for k, tr in enumerate(scene.timeline.transitions):
         cancel.check()
         progress("assignment", k / n_tr, f"{current.name} → {tr.to}")
         target = scene.formation(tr.to)
+        where = f"timeline.transitions[{k}] ({current.name} → {target.name})"
+        start_groups = None if current.groups is None else np.asarray(current.groups)[occupied]
         t0 = time.perf_counter()
-        chosen = assign(tr.assignment, positions, target.positions, scale,
-                        None if current.groups is None else np.asarray(current.groups)[occupied],
+        chosen = assign(tr.assignment, positions, target.positions, scale, start_groups,
                         target.groups, progress=progress, cancel=cancel)
         timings["assignment"] += time.perf_counter() - t0
         t0 = time.perf_counter()
         goals = target.positions[chosen.goal_of]
         legs = goals - positions
-        duration, needed = _transition_duration(f"timeline.transitions[{k}] ({current.name} → {target.name})",
-                                                tr.duration, legs, limits, profile, scene, settings)
-        durations.append(duration)
-        pieces.append(straight_leg_points(positions, goals, profile, settings.degree))
-        labels.append(f"{current.name} → {target.name}")
+        bound = trapezoid_lower_bound(legs, scene.fleet.limits)
+        duration, needed = _transition_duration(where, tr.duration, legs, limits, profile, scene, settings,
+                                                raise_if_short=False)
+        leg_points = straight_leg_points(positions, goals, profile, settings.degree)
+        guarantee = clearance.homogeneous and tr.assignment == "unlabeled" \
+            and synchronized_spacing_holds(positions, goals, scale)
+        if obstacles.legs_clear(positions, goals) and (
+                guarantee or _separated(leg_points, max(duration, needed), spec)):
+            duration, needed = _transition_duration(where, tr.duration, legs, limits, profile, scene, settings)
+            step_durations, step_pieces = np.array([duration]), leg_points[:, None]
+            method, figures = "straight lines, shared time profile", {}
+        else:
+            progress("search", 0.0, f"{where}: straight lines blocked, searching the roadmap")
+            chosen, step_durations, step_pieces, figures = obstacles.plan_transition(
+                where, current.name, occupied, target.name, tr.assignment, start_groups, target.groups,
+                profile, settings.degree, limits)
+            goals = target.positions[chosen.goal_of]
+            needed = max(float(step_durations.sum()), MIN_TRANSITION_DURATION)
+            duration = _stretched(where, tr.duration, needed)
+            step_durations = step_durations * (duration / needed) if len(step_durations) else step_durations
+            method, guarantee = f"roadmap search (ECBS, w = {settings.suboptimality:g}), stop at every waypoint", False
+        durations += list(step_durations)
+        pieces.append(step_pieces)
+        labels += [f"{current.name} → {target.name}"] * len(step_durations)
         transitions.append(TransitionPlan(
             index=k, source=current.name, target=target.name, mode=tr.assignment, assignment=chosen,
-            duration=duration, minimum_duration=needed, lower_bound=trapezoid_lower_bound(legs, scene.fleet.limits),
-            method="straight lines, shared time profile",
-            spacing_guarantee=homogeneous and tr.assignment == "unlabeled"
-            and synchronized_spacing_holds(positions, goals, scale),
+            duration=duration, minimum_duration=needed, lower_bound=bound, method=method,
+            spacing_guarantee=guarantee, search=figures,
         ))
         if tr.hold > 0:
             durations.append(tr.hold)
-            pieces.append(hold_points(goals, settings.degree))
+            pieces.append(hold_points(goals, settings.degree)[:, None])
             labels.append(f"hold {target.name}")
         positions, occupied, current = goals, chosen.goal_of, target
-        timings["trajectories"] += time.perf_counter() - t0
+        timings["transitions"] += time.perf_counter() - t0  # includes any search
     trajectory = FleetTrajectory(
-        breaks=np.r_[0.0, np.cumsum(durations)], control_points=np.stack(pieces, axis=1),
+        breaks=np.r_[0.0, np.cumsum(durations)], control_points=np.concatenate(pieces, axis=1),
         drone_ids=scene.fleet.ids, segment_labels=tuple(labels),
     )
     t0 = time.perf_counter()
-    report = verify(trajectory, spec_from_scene(scene), progress=progress, cancel=cancel)
+    report = verify(trajectory, spec, progress=progress, cancel=cancel)
     timings["verification"] = time.perf_counter() - t0
-    return PlanResult(scene, settings, trajectory, transitions, report, timings)
+    timings.update(obstacles.seconds)
+    return PlanResult(scene, settings, trajectory, transitions, report, timings, obstacles.stats, base_dir)
+
+
+def _separated(leg_points: np.ndarray, duration: float, spec: VerificationSpec) -> bool:
+    """Whether one straight-line piece ``(N, n + 1, 3)`` of ``duration`` s keeps every pair separated
+    (the verifier's continuous-time separation check on that piece alone)."""
+    piece = FleetTrajectory(np.array([0.0, duration]), leg_points[:, None], spec.drone_ids, ("candidate",))
+    violations, *_ = check_separation(piece, spec)
+    return not violations
+
+
+def _stretched(where: str, requested, needed: float) -> float:
+    """Duration of a roadmap transition: ``needed`` (s) for "fastest", else the request if feasible."""
+    if requested == "fastest":
+        return needed
+    if requested < needed:
+        raise PlanningError(f"{where}: duration {requested:g} s is too short for the path around the obstacles; "
+                            f"the roadmap plan needs at least {needed:.2f} s")
+    return float(requested)
 
 
 def _transition_duration(where: str, requested, legs: np.ndarray, limits: np.ndarray, profile, scene: Scene,
-                         settings: PlannerSettings) -> tuple[float, float]:
+                         settings: PlannerSettings, raise_if_short: bool = True) -> tuple[float, float]:
     """Duration to fly ``legs`` ``(N, 3)`` and the minimum the (margined) ``limits`` allow, seconds.
 
-    ``requested`` is ``"fastest"`` or seconds; a request below the minimum raises :class:`PlanningError`
+    ``requested`` is ``"fastest"`` or seconds; a request below the minimum gives the minimum when not
+    ``raise_if_short``, else raises :class:`PlanningError`
     naming the transition, the minimum and the drone with the longest leg.
     """
     per_drone = minimum_duration(legs, limits, profile)
     needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
     if requested == "fastest":
+        return needed, needed
+    if requested < needed and not raise_if_short:
         return needed, needed
     if requested < needed:
         slowest = int(np.argmax(per_drone))

@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+import trimesh
 
 from core.assignment import min_sum_of_squares
 from core.clearance import ClearanceModel
@@ -82,6 +83,80 @@ def lab_eight() -> dict:
     }
 
 
+def write_bridge_mesh(path: Path) -> None:
+    """An invented two-pier footbridge: deck, two piers and two abutments, united into one
+    watertight mesh (manifold3d boolean union), written as binary STL in metres."""
+    parts = [((30.0, 4.0, 1.0), (0.0, 0.0, 6.5)),      # deck, underside at 6 m
+             ((1.2, 3.0, 6.0), (-6.0, 0.0, 3.0)), ((1.2, 3.0, 6.0), (6.0, 0.0, 3.0)),  # piers
+             ((2.0, 6.0, 7.0), (-16.0, 0.0, 3.5)), ((2.0, 6.0, 7.0), (16.0, 0.0, 3.5))]  # abutments
+    boxes = [trimesh.creation.box(extents=e, transform=trimesh.transformations.translation_matrix(c))
+             for e, c in parts]
+    trimesh.boolean.union(boxes, engine="manifold").export(path)
+
+
+def bridge_inspection() -> dict:
+    """Six inspection drones visit stations under and beside an invented footbridge (labeled goals)."""
+    inspector = {"name": "inspection-quad", "radius_xy": 0.4, "radius_z": 0.7, "tracking_margin": 0.1,
+                 "max_speed_xy": 3.0, "max_speed_z": 1.5, "max_acceleration": 2.5}
+    launch = line(6, (-7.5, -8.0, 1.0), (7.5, -8.0, 1.0))
+    stations = np.array([(-11.0, 0.0, 4.0), (-2.5, 0.0, 3.5), (2.5, 0.0, 3.5), (11.0, 0.0, 4.0),
+                         (-3.0, 4.0, 6.5), (3.0, -4.0, 6.5)])
+    second = np.array([(-11.0, 4.0, 6.5), (-2.5, 0.0, 1.5), (9.0, 4.0, 6.5), (11.0, 0.0, 2.0),
+                       (-8.0, -4.0, 6.5), (2.5, 0.0, 1.5)])
+    return {
+        "name": "Harrow Creek footbridge inspection",
+        "description": "Invented demo: six inspection drones fly from a launch line to stations under the deck "
+                       "and beside it (labeled), move to a second set of stations, and return.",
+        "site": {"flight_volume": {"lower": [-20.0, -10.0, 0.5], "upper": [20.0, 10.0, 12.0]},
+                 "meshes": [{"name": "footbridge", "file": "meshes/footbridge.stl", "units": "m"}]},
+        "fleet": {"types": [inspector], "drones": [{"id": f"I{k + 1}", "type": "inspection-quad"} for k in range(6)]},
+        "formations": [
+            {"name": "launch line", "points": launch.round(3).tolist()},
+            {"name": "first stations", "points": stations.tolist()},
+            {"name": "second stations", "points": second.tolist()},
+        ],
+        "timeline": {"start": "launch line", "start_hold": 1.0, "transitions": [
+            {"to": "first stations", "assignment": "labeled", "duration": "fastest", "hold": 5.0},
+            {"to": "second stations", "assignment": "labeled", "duration": "fastest", "hold": 5.0},
+            {"to": "launch line", "assignment": "unlabeled", "duration": "fastest", "hold": 0.0},
+        ]},
+    }
+
+
+def write_courtyard_mesh(path: Path) -> None:
+    """Two invented building blocks with a 2.5 m passage between them (binary STL, metres)."""
+    blocks = [trimesh.creation.box(extents=(4.0, 8.75, 14.0),
+                                   transform=trimesh.transformations.translation_matrix((10.0, y, 7.0)))
+              for y in (4.375, 15.625)]
+    trimesh.util.concatenate(blocks).export(path)
+
+
+def courtyard_swap(n: int = 32) -> dict:
+    """``n`` drones swap sides of an invented courtyard through the passage between two blocks."""
+    courier = {"name": "courier-quad", "radius_xy": 0.25, "radius_z": 0.35, "tracking_margin": 0.05,
+               "max_speed_xy": 3.0, "max_speed_z": 1.5, "max_acceleration": 3.0}
+    half = n // 2
+    rows = 4
+    ys = np.linspace(3.0, 17.0, half // rows)
+    west = np.array([(x, y, z) for x in (2.5, 4.5) for z in (2.0, 4.5) for y in ys])[:half]
+    east = west * [-1, 1, 1] + [20.0, 0.0, 0.0]
+    return {
+        "name": "Cloister courtyard swap",
+        "description": f"Invented demo: {n} drones on the west and east lawns of a courtyard trade places "
+                       "through the 2.5 m passage between two blocks (labeled).",
+        "site": {"flight_volume": {"lower": [0.0, 0.0, 0.5], "upper": [20.0, 20.0, 8.0]},
+                 "meshes": [{"name": "blocks", "file": "meshes/courtyard_blocks.stl", "units": "m"}]},
+        "fleet": {"types": [courier], "drones": [{"id": f"C{k + 1:02d}", "type": "courier-quad"} for k in range(n)]},
+        "formations": [
+            {"name": "lawns", "points": np.r_[west, east].round(3).tolist()},
+            {"name": "swapped", "points": np.r_[east, west].round(3).tolist()},
+        ],
+        "timeline": {"start": "lawns", "start_hold": 1.0, "transitions": [
+            {"to": "swapped", "assignment": "labeled", "duration": "fastest", "hold": 0.0},
+        ]},
+    }
+
+
 def write_cube_csv(path: Path) -> None:
     """Cube corners listed so that pad ``i`` → corner ``i`` is the shortest (non-crossing) pairing."""
     corners = np.array([(x, y, z) for z in (0.9, 2.1) for y in (-0.8, 0.8) for x in (-0.8, 0.8)])
@@ -95,7 +170,11 @@ def write_cube_csv(path: Path) -> None:
 
 def main() -> None:
     write_cube_csv(HERE / "cube.csv")
-    for name, build in (("meadow_show.json", meadow_show), ("lab_eight.json", lab_eight)):
+    (HERE / "meshes").mkdir(exist_ok=True)
+    write_bridge_mesh(HERE / "meshes" / "footbridge.stl")
+    write_courtyard_mesh(HERE / "meshes" / "courtyard_blocks.stl")
+    for name, build in (("meadow_show.json", meadow_show), ("lab_eight.json", lab_eight),
+                        ("bridge_inspection.json", bridge_inspection), ("courtyard_swap.json", courtyard_swap)):
         save_scene(scene_from_dict(build(), source=name, base_dir=HERE), HERE / name)
         print(f"wrote {HERE / name}")
 

@@ -35,3 +35,9 @@ def make_scene():
     def build(*args, **kwargs):
         return scene_from_dict(scene_dict(*args, **kwargs))
     return build
+
+
+@pytest.fixture(autouse=True)
+def _private_roadmap_cache(tmp_path_factory, monkeypatch):
+    """Every test gets its own roadmap cache folder (never the user's)."""
+    monkeypatch.setenv("SKYLOOM_CACHE_DIR", str(tmp_path_factory.mktemp("cache")))

@@ -14,8 +14,12 @@ from core import SAFETY_CAUTION
 from core.cli import main
 from core.errors import ExportError, PlanningError
 from core.export import export_plan, load_export
-from core.pipeline import plan
-from core.scene import load_scene, save_scene, scene_from_dict
+from core.pipeline import PlanResult, plan
+from core.scene import load_scene, scene_from_dict
+from core.straight_line import straight_leg_points
+from core.timing import PROFILES
+from core.trajectory import FleetTrajectory
+from core.verify import spec_from_scene, verify
 
 LAB = ROOT / "sample_scenes" / "lab_eight.json"
 
@@ -74,9 +78,23 @@ def test_reloaded_export_verifies_again(lab_result, tmp_path):
     assert main(["check", str(out), "--quiet"]) == 0
 
 
-def test_failed_plan_is_refused_unless_overridden_and_then_marked(tmp_path):
+def _straight_swap(tmp_path=None):
+    """Two drones swapping places on straight lines (they collide half-way): a plan that must fail."""
+    swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
+    scene = scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}]))
+    legs = straight_leg_points(swap["a"], swap["b"], PROFILES["min_snap"], 7)
+    traj = FleetTrajectory(np.array([0.0, 10.0]), legs[:, None], scene.fleet.ids, ("a → b",))
+    return PlanResult(scene, scene.planner, traj, [], verify(traj, spec_from_scene(scene)))
+
+
+def test_labeled_swap_is_routed_around_on_the_roadmap():
     swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
     result = plan(scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}])))
+    assert result.verified and "roadmap" in result.transitions[0].method
+
+
+def test_failed_plan_is_refused_unless_overridden_and_then_marked(tmp_path):
+    result = _straight_swap()
     assert not result.verified
     with pytest.raises(ExportError, match="failed verification"):
         export_plan(result, tmp_path / "out")
@@ -118,14 +136,11 @@ def test_cli_plan_info_and_errors(tmp_path, capsys):
     assert not (tmp_path / "nothing").exists()
 
 
-def test_cli_conflict_exit_code_and_message(tmp_path, capsys):
-    swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
-    path = tmp_path / "swap.json"
-    save_scene(scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}])), path)
-    assert main(["plan", str(path), "--out", str(tmp_path / "out"), "--quiet"]) == 1
+def test_cli_check_exit_code_and_message_for_a_failing_export(tmp_path, capsys):
+    out = export_plan(_straight_swap(), tmp_path / "out", allow_unverified=True)
+    assert main(["check", str(out), "--quiet"]) == 1
     text = capsys.readouterr().out
-    assert "separation" in text and "d0 & d1" in text and "nothing written" in text
-    assert not (tmp_path / "out").exists()
+    assert "separation" in text and "d0 & d1" in text
 
 
 def test_console_command_runs_as_installed():
@@ -178,12 +193,3 @@ def test_terminal_progress_draws_a_bar_on_a_terminal():
     assert "[#####-----]  50% separation" in stream.getvalue()
 
 
-def test_scene_with_meshes_is_refused_until_meshes_are_checked(tmp_path):
-    # Planning straight through an unmodelled mesh and calling it verified would be unsafe.
-    (tmp_path / "tower.stl").write_text("solid t\nendsolid t\n")
-    f = {"a": np.array([[0.0, 0, 0], [2.0, 0, 0]]), "b": np.array([[0.0, 0, 5], [2.0, 0, 5]])}
-    data = scene_dict(f, [{"to": "b"}])
-    data["site"]["meshes"] = [{"name": "tower", "file": "tower.stl"}]
-    scene = scene_from_dict(data, base_dir=tmp_path)
-    with pytest.raises(PlanningError, match=r"site.meshes \('tower'\): obstacle meshes cannot be planned"):
-        plan(scene)

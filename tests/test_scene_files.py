@@ -24,10 +24,10 @@ def _problems(data, **kw):
     return info.value.problems
 
 
-@pytest.mark.parametrize("name", ["meadow_show.json", "lab_eight.json"])
+@pytest.mark.parametrize("name", ["meadow_show.json", "lab_eight.json", "bridge_inspection.json",
+                                  "courtyard_swap.json"])
 def test_sample_scenes_round_trip_exactly(name, tmp_path):
-    for f in SAMPLES.iterdir():
-        shutil.copy(f, tmp_path / f.name)
+    shutil.copytree(SAMPLES, tmp_path, dirs_exist_ok=True)
     scene = load_scene(tmp_path / name)
     save_scene(scene, tmp_path / "again.json")
     assert load_scene(tmp_path / "again.json") == scene

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import json
 import re
+import shutil
+from dataclasses import asdict
 from pathlib import Path
 
 from .. import SAFETY_CAUTION, __version__
@@ -47,6 +49,7 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
              for k, d in enumerate(traj.drone_ids)}
     if len(files) != traj.n_drones:
         raise ExportError("two drone ids map to the same file name; rename the drones")
+    mesh_files = [f"meshes/{k}_{Path(m.file).name}" for k, m in enumerate(scene.site.meshes)]
     manifest = {
         "format": EXPORT_FORMAT, "version": 1, **status,
         "scene": scene.name, "duration_s": traj.duration, "degree": traj.degree,
@@ -56,16 +59,23 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
             "from": t.source, "to": t.target, "assignment": t.mode, "assignment_method": t.assignment.method,
             "duration_s": t.duration, "minimum_duration_s": t.minimum_duration, "lower_bound_s": t.lower_bound,
             "makespan_ratio": t.makespan_ratio, "method": t.method, "spacing_guarantee": t.spacing_guarantee,
+            "search": t.search,
         } for t in result.transitions],
-        "settings": {"degree": result.settings.degree, "profile": result.settings.profile,
-                     "limit_margin": result.settings.limit_margin},
-        "files": ["plan.json", "scene.json", "report.json", "report.txt", "samples.csv", "paths.gltf", *files],
+        "settings": asdict(result.settings),
+        "roadmap": {k: v for k, v in result.stats.items() if k.startswith("roadmap")},
+        "files": ["plan.json", "scene.json", "report.json", "report.txt", "samples.csv", "paths.gltf",
+                  *mesh_files, *files],
     }
     with staged_folder(out_dir) as stage:
         (stage / "trajectories").mkdir()
         for name, doc in files.items():
             (stage / name).write_text(json.dumps(doc), encoding="utf-8")
-        (stage / "scene.json").write_text(dumps_compact(scene_to_dict(scene, inline_csv=True)), encoding="utf-8")
+        scene_doc = scene_to_dict(scene, inline_csv=True)
+        for k, (mesh, copied) in enumerate(zip(scene.site.meshes, mesh_files, strict=True)):
+            (stage / "meshes").mkdir(exist_ok=True)  # copies let the folder be re-verified on its own
+            shutil.copyfile(Path(result.base_dir) / mesh.file, stage / copied)
+            scene_doc["site"]["meshes"][k]["file"] = copied
+        (stage / "scene.json").write_text(dumps_compact(scene_doc), encoding="utf-8")
         (stage / "report.json").write_text(json.dumps({**status, **report.to_dict()}, indent=1), encoding="utf-8")
         (stage / "report.txt").write_text(f"{header}\n\n{report.to_text()}", encoding="utf-8")
         (stage / "samples.csv").write_text(samples_csv(traj, sample_rate_hz, header), encoding="utf-8")

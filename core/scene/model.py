@@ -175,6 +175,17 @@ class PlannerSettings:
     degree: Annotated[int, Field(ge=5, le=15)] = 7
     profile: Literal["min_snap", "min_jerk"] = "min_snap"
     limit_margin: Annotated[float, Field(gt=0.5, le=1.0)] = 0.95
+    #: Roadmap (used where straight lines are blocked): free-space samples drawn, neighbours tried
+    #: per vertex, spanner stretch factor, sampler seed.
+    roadmap_samples: Annotated[int, Field(ge=50, le=200_000)] = 1500
+    roadmap_neighbours: Annotated[int, Field(ge=3, le=64)] = 12
+    spanner_stretch: Annotated[float, Field(ge=1.0, le=10.0)] = 1.5
+    roadmap_seed: Annotated[int, Field(ge=0)] = 0
+    #: Voxel pitch of the planner's obstacle field, in clearance radii (error bound ≈ 2 × pitch).
+    obstacle_pitch: Annotated[float, Field(ge=0.05, le=1.0)] = 0.2
+    #: Multi-agent search: suboptimality factor w ≥ 1 (sum of costs ≤ w × optimal), time limit (s).
+    suboptimality: Annotated[float, Field(ge=1.0, le=10.0)] = 2.0
+    search_time_limit: Annotated[float, Field(gt=0.0, le=3600.0)] = 60.0
 
 
 @dataclass(config=_STRICT, kw_only=True)

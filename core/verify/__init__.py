@@ -9,6 +9,7 @@ import numpy as np
 from ..progress import CancelToken, ProgressCallback, no_progress
 from ..trajectory import FleetTrajectory
 from .checker import SEPARATION_INFLATION, check_geofence, check_limits, check_separation, sampled_peaks
+from .obstacles import check_obstacles
 from .report import DroneFigures, VerificationReport, Violation
 from .spec import VerificationSpec, spec_from_scene
 
@@ -25,6 +26,9 @@ def verify(traj: FleetTrajectory, spec: VerificationSpec, *, progress: ProgressC
     violations, min_ratio, timeline, facts = check_separation(traj, spec, progress=progress, cancel=cancel)
     progress("verification", 0.7, "flight volume and keep-out boxes")
     violations += check_geofence(traj, spec, cancel=cancel)
+    if spec.meshes:
+        progress("verification", 0.75, "obstacle meshes")
+        violations += check_obstacles(traj, spec, cancel=cancel)
     progress("verification", 0.8, "speed and acceleration limits")
     limit_violations, certified = check_limits(traj, spec, cancel=cancel)
     violations += limit_violations
@@ -47,6 +51,10 @@ def verify(traj: FleetTrajectory, spec: VerificationSpec, *, progress: ProgressC
         "re-checked by bisection until that bound proved it clear or a sample showed a conflict.",
         "Flight volume and keep-out boxes: pieces whose control points (plus clearance) satisfy the rule are "
         "proven by the convex-hull property; the others were bisected with the speed bound.",
+        *(["Obstacle meshes: exact surface distances (trimesh) in coordinates scaled by each clearance "
+           "ellipsoid, bisected with the scaled speed bound wherever a window's control-point box comes "
+           "within clearance of the mesh's box; starts are tested inside/outside each watertight mesh."]
+          if spec.meshes else []),
         f"Speed and acceleration: proven to stay within the limits plus {spec.tolerance:.0%} by bisection with "
         "the convex-hull bound of the next derivative; jerk and snap are sampled peaks (reported, not limited).",
         "A verdict of PASSED therefore holds for continuous time, not only at the samples.",

@@ -31,7 +31,7 @@ PEAK_SAMPLES_PER_PIECE = 64
 
 
 @dataclass
-class _Rows:
+class Rows:
     """Intervals to certify: row ``r`` concerns drone ``a[r]`` (and ``b[r]`` for pairs) on
     ``[t_lo[r], t_hi[r]]`` within piece ``seg[r]``, with margin rate bound ``lipschitz[r]``."""
 
@@ -43,7 +43,7 @@ class _Rows:
     b: np.ndarray | None = None
 
 
-def _certify_rows(kind: str, rows: _Rows, margin, traj: FleetTrajectory, ids, measured_of, required_of, describe,
+def certify_rows(kind: str, rows: Rows, margin, traj: FleetTrajectory, ids, measured_of, required_of, describe,
                   cancel) -> tuple[list[Violation], Certificate]:
     """Certify ``rows``; one violation per drone (or pair) and piece where it fails.
 
@@ -73,7 +73,7 @@ def _certify_rows(kind: str, rows: _Rows, margin, traj: FleetTrajectory, ids, me
     return out, cert
 
 
-def _densest_minimum(margin, rows: _Rows, picked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _densest_minimum(margin, rows: Rows, picked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Smallest margin ``(K,)`` and its time ``(K,)`` on a dense grid over each picked row's interval
     (for reporting how bad a violation is; the verdict itself comes from the certificate)."""
     tau = np.linspace(0.0, 1.0, _DENSE_SAMPLES)
@@ -130,13 +130,13 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
     i, j, win = i.astype(np.intp), j.astype(np.intp), win.astype(np.intp)
     seg, part = win // WINDOWS_PER_PIECE, win % WINDOWS_PER_PIECE
     radii = model.radii(i, j)
-    rows = _Rows(i, t_lo, t_hi, seg, (speed[i, seg, part] + speed[j, seg, part]) / radii.min(axis=1), b=j)
+    rows = Rows(i, t_lo, t_hi, seg, (speed[i, seg, part] + speed[j, seg, part]) / radii.min(axis=1), b=j)
 
     def margin(r, t):
         gap = traj.evaluate_rows(i[r], t) - traj.evaluate_rows(j[r], t)
         return np.linalg.norm(gap / radii[r], axis=-1) - 1.0
 
-    violations, cert = _certify_rows(
+    violations, cert = certify_rows(
         "separation", rows, margin, traj, spec.drone_ids,
         measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
         describe=lambda m, req, r: (f"separation ratio {m:.3f} < 1 (pair clearance {radii[r, 0]:.2f} m "
@@ -172,12 +172,12 @@ def check_limits(traj: FleetTrajectory, spec: VerificationSpec, *,
         allowed = spec.limits[drone, column] * (1.0 + spec.tolerance)
         todo = np.nonzero(traj.hull_bound(order, axes).ravel() > allowed)[0]  # others: hull proves it
         d, sg = drone[todo], seg[todo]
-        rows = _Rows(d, traj.breaks[sg], traj.breaks[sg + 1], sg, traj.hull_bound(order + 1, axes).ravel()[todo])
+        rows = Rows(d, traj.breaks[sg], traj.breaks[sg + 1], sg, traj.hull_bound(order + 1, axes).ravel()[todo])
 
         def margin(r, t, d=d, axes=axes, order=order, allowed=allowed[todo]):
             return allowed[r] - np.linalg.norm(traj.evaluate_rows(d[r], t, order)[:, axes], axis=-1)
 
-        found, cert = _certify_rows(
+        found, cert = certify_rows(
             kind, rows, margin, traj, spec.drone_ids,
             measured_of=lambda worst, r, a=allowed[todo]: a[r] - worst,
             required_of=lambda r, d=d, column=column: spec.limits[d[r], column],
@@ -204,9 +204,9 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
     speed = traj.hull_bound(1).ravel()
     volume = spec.flight_volume
 
-    def rows_where(needs_check: np.ndarray, rate: np.ndarray) -> _Rows:
+    def rows_where(needs_check: np.ndarray, rate: np.ndarray) -> Rows:
         todo = np.nonzero(needs_check)[0]
-        return _Rows(drone[todo], traj.breaks[seg[todo]], traj.breaks[seg[todo] + 1], seg[todo], rate[todo])
+        return Rows(drone[todo], traj.breaks[seg[todo]], traj.breaks[seg[todo] + 1], seg[todo], rate[todo])
 
     rows = rows_where(np.any((low < volume[0]) | (high > volume[1]), axis=1), speed)
 
@@ -214,7 +214,7 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
         p = traj.evaluate_rows(d[r], t)
         return np.minimum(p - volume[0], volume[1] - p).min(axis=1)
 
-    violations, _ = _certify_rows(
+    violations, _ = certify_rows(
         "flight_volume", rows, inside, traj, spec.drone_ids,
         measured_of=lambda worst, r: -worst, required_of=lambda r: np.zeros(len(r)),
         describe=lambda m, req, r: f"{m:.3f} m outside the flight volume", cancel=cancel)
@@ -225,7 +225,7 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
         def clear(r, t, d=rows.a, box=box):
             return box_distance_ratio(traj.evaluate_rows(d[r], t), box, spec.semi_axes[d[r]]) - 1.0
 
-        found, _ = _certify_rows(
+        found, _ = certify_rows(
             "keep_out", rows, clear, traj, spec.drone_ids,
             measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
             describe=lambda m, req, r, name=name: (

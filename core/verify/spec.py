@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
+import trimesh
 
+from ..scene.meshes import load_site_meshes
 from ..scene.model import Scene
 
 
@@ -17,6 +20,7 @@ class VerificationSpec:
     limits : (N, 3) max horizontal speed, max vertical speed (m/s), max acceleration norm (m/s²)
     flight_volume : (2, 3) lower/upper corner of the box drone centres must stay in, metres
     keep_out : names and (2, 3) bounds of boxes no clearance ellipsoid may touch
+    meshes : names and placed obstacle meshes (world metres) no clearance ellipsoid may touch
     tolerance : relative slack allowed over a speed/acceleration limit (0.01 = 1 %)
     """
 
@@ -25,15 +29,19 @@ class VerificationSpec:
     limits: np.ndarray
     flight_volume: np.ndarray
     keep_out: tuple[tuple[str, np.ndarray], ...] = ()
+    meshes: tuple[tuple[str, trimesh.Trimesh], ...] = ()
     tolerance: float = 0.01
 
 
-def spec_from_scene(scene: Scene) -> VerificationSpec:
-    """The requirements stated by ``scene`` (fleet clearance and limits, flight volume, keep-out)."""
+def spec_from_scene(scene: Scene, base_dir: Path | None = None) -> VerificationSpec:
+    """The requirements stated by ``scene`` (fleet clearance and limits, flight volume, keep-out
+    boxes, obstacle meshes read from ``base_dir``, the folder mesh paths are relative to)."""
+    meshes = load_site_meshes(scene.site, Path(base_dir or "."), scene.name) if scene.site.meshes else ()
     return VerificationSpec(
         drone_ids=scene.fleet.ids,
         semi_axes=scene.fleet.semi_axes,
         limits=scene.fleet.limits,
         flight_volume=scene.site.flight_volume.bounds,
         keep_out=tuple((b.name, b.bounds) for b in scene.site.keep_out),
+        meshes=tuple((m.name, m.mesh) for m in meshes),
     )

@@ -1,0 +1,6 @@
+"""Obstacles for the planner: a conservative clearance field over meshes, keep-out boxes and the
+flight volume (the verifier uses its own exact check instead)."""
+
+from .field import ClearanceField
+
+__all__ = ["ClearanceField"]
