@@ -73,6 +73,16 @@ def certify_rows(kind: str, rows: Rows, margin, traj: FleetTrajectory, ids, meas
     return out, cert
 
 
+def certify_unit_ratio_rows(kind: str, rows: Rows, margin, traj: FleetTrajectory, ids, describe, cancel
+                            ) -> list[Violation]:
+    """:func:`certify_rows` for margins ``ratio − 1`` (a distance ratio that must stay ≥ 1);
+    ``describe(measured ratio)`` gives the violation's text."""
+    found, _ = certify_rows(kind, rows, margin, traj, ids, measured_of=lambda worst, r: worst + 1.0,
+                            required_of=lambda r: np.ones(len(r)), describe=lambda m, req, r: describe(m),
+                            cancel=cancel)
+    return found
+
+
 def _densest_minimum(margin, rows: Rows, picked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Smallest margin ``(K,)`` and its time ``(K,)`` on a dense grid over each picked row's interval
     (for reporting how bad a violation is; the verdict itself comes from the certificate)."""
@@ -225,13 +235,10 @@ def check_geofence(traj: FleetTrajectory, spec: VerificationSpec, *,
         def clear(r, t, d=rows.a, box=box):
             return box_distance_ratio(traj.evaluate_rows(d[r], t), box, spec.semi_axes[d[r]]) - 1.0
 
-        found, _ = certify_rows(
+        violations += certify_unit_ratio_rows(
             "keep_out", rows, clear, traj, spec.drone_ids,
-            measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
-            describe=lambda m, req, r, name=name: (
-                f"clearance ellipsoid enters keep-out box {name!r} (distance ratio {m:.3f} < 1)"),
-            cancel=cancel)
-        violations += found
+            lambda m, name=name: f"clearance ellipsoid enters keep-out box {name!r} (distance ratio {m:.3f} < 1)",
+            cancel)
     return violations
 
 

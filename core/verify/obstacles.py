@@ -15,7 +15,7 @@ import trimesh
 
 from ..progress import CancelToken
 from ..trajectory import FleetTrajectory
-from .checker import Rows, certify_rows
+from .checker import Rows, certify_unit_ratio_rows
 from .report import Violation
 from .spec import VerificationSpec
 
@@ -50,13 +50,10 @@ def check_obstacles(traj: FleetTrajectory, spec: VerificationSpec, *,
                     return np.empty(0)
                 return trimesh.proximity.closest_point(scaled, p)[1] - 1.0
 
-            found, _ = certify_rows(
+            violations += certify_unit_ratio_rows(
                 "obstacle", rows, margin, traj, spec.drone_ids,
-                measured_of=lambda worst, r: worst + 1.0, required_of=lambda r: np.ones(len(r)),
-                describe=lambda m, req, r, name=name: (
-                    f"clearance ellipsoid touches mesh {name!r} (scaled distance {m:.3f} < 1)"),
-                cancel=cancel)
-            violations += found
+                lambda m, name=name: f"clearance ellipsoid touches mesh {name!r} (scaled distance {m:.3f} < 1)",
+                cancel)
             if mesh.is_watertight:
                 inside = np.nonzero(scaled.contains(starts[drones] / axes))[0]
                 violations += [Violation(
