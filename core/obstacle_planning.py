@@ -22,6 +22,7 @@ from .progress import CancelToken, ProgressCallback, no_progress
 from .roadmap.build import RoadmapSettings, attach_points, build_roadmap
 from .roadmap.cache import cached_roadmap, roadmap_key
 from .roadmap.graph import Roadmap
+from .scene.checks import format_xyz
 from .scene.meshes import SiteMesh, load_site_meshes
 from .scene.model import PlannerSettings, Scene
 from .search import SearchFailed, ecbs
@@ -64,7 +65,6 @@ class ObstaclePlanner:
         field = ClearanceField(self.envelope, self.meshes, site.flight_volume.bounds,
                                [b.bounds for b in site.keep_out], self.settings.obstacle_pitch)
         self.seconds["obstacle field"] = time.perf_counter() - t0
-        self.stats["field_error_bound"] = field.error_bound
         return field
 
     def legs_clear(self, starts: np.ndarray, goals: np.ndarray) -> bool:
@@ -194,7 +194,7 @@ def _locate(spans: list[tuple[str, int]], k: int) -> tuple[str, int]:
 
 
 def _xyz(p: np.ndarray) -> str:
-    return "(" + ", ".join(f"{c:.2f}" for c in p) + ")"
+    return format_xyz(p, ".2f")
 
 
 def _describe_conflicts(conflicts, roadmap: Roadmap, ids) -> str:

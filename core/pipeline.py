@@ -83,10 +83,8 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
     limits = scene.fleet.limits * settings.limit_margin
     clearance = ClearanceModel(scene.fleet.semi_axes)
     scale = clearance.bound_radii
-    spec = spec_from_scene(scene, base_dir)
     obstacles = ObstaclePlanner(scene, settings, base_dir, use_cache=use_cache, progress=progress, cancel=cancel)
-    if scene.site.meshes:
-        _ = obstacles.meshes  # read and check them before any planning
+    spec = spec_from_scene(scene, meshes=obstacles.meshes)  # meshes read (and checked) once, before planning
     timings: dict[str, float] = {"assignment": 0.0, "transitions": 0.0}
 
     start = scene.formation(scene.timeline.start)
@@ -113,14 +111,17 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
         goals = target.positions[chosen.goal_of]
         legs = goals - positions
         bound = trapezoid_lower_bound(legs, scene.fleet.limits)
-        duration, needed = _transition_duration(where, tr.duration, legs, limits, profile, scene, settings,
-                                                raise_if_short=False)
+        per_drone = minimum_duration(legs, limits, profile)
+        needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
         leg_points = straight_leg_points(positions, goals, profile, settings.degree)
         guarantee = clearance.homogeneous and tr.assignment == "unlabeled" \
             and synchronized_spacing_holds(positions, goals, scale)
-        if obstacles.legs_clear(positions, goals) and (
-                guarantee or _separated(leg_points, max(duration, needed), spec)):
-            duration, needed = _transition_duration(where, tr.duration, legs, limits, profile, scene, settings)
+        # On a shared time profile the relative motion does not depend on the duration.
+        if obstacles.legs_clear(positions, goals) and (guarantee or _separated(leg_points, needed, spec)):
+            slowest = int(np.argmax(per_drone))
+            duration = _requested_duration(
+                where, tr.duration, needed, f"the limits (at {settings.limit_margin:.0%}) need",
+                f" (longest leg: drone {scene.fleet.ids[slowest]}, {np.linalg.norm(legs[slowest]):.2f} m)")
             step_durations, step_pieces = np.array([duration]), leg_points[:, None]
             method, figures = "straight lines, shared time profile", {}
         else:
@@ -130,8 +131,8 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
                 profile, settings.degree, limits)
             goals = target.positions[chosen.goal_of]
             needed = max(float(step_durations.sum()), MIN_TRANSITION_DURATION)
-            duration = _stretched(where, tr.duration, needed)
-            step_durations = step_durations * (duration / needed) if len(step_durations) else step_durations
+            duration = _requested_duration(where, tr.duration, needed, "the roadmap plan around the obstacles needs")
+            step_durations = step_durations * (duration / needed)
             method, guarantee = f"roadmap search (ECBS, w = {settings.suboptimality:g}), stop at every waypoint", False
         durations += list(step_durations)
         pieces.append(step_pieces)
@@ -166,37 +167,14 @@ def _separated(leg_points: np.ndarray, duration: float, spec: VerificationSpec) 
     return not violations
 
 
-def _stretched(where: str, requested, needed: float) -> float:
-    """Duration of a roadmap transition: ``needed`` (s) for "fastest", else the request if feasible."""
+def _requested_duration(where: str, requested, needed: float, needs: str, detail: str = "") -> float:
+    """A transition's duration in seconds: ``needed`` for ``"fastest"``, else the request. A request
+    below ``needed`` raises :class:`PlanningError` saying where, what ``needs`` how long, and ``detail``."""
     if requested == "fastest":
         return needed
     if requested < needed:
-        raise PlanningError(f"{where}: duration {requested:g} s is too short for the path around the obstacles; "
-                            f"the roadmap plan needs at least {needed:.2f} s")
+        raise PlanningError(f"{where}: duration {requested:g} s is too short; {needs} at least {needed:.2f} s{detail}")
     return float(requested)
-
-
-def _transition_duration(where: str, requested, legs: np.ndarray, limits: np.ndarray, profile, scene: Scene,
-                         settings: PlannerSettings, raise_if_short: bool = True) -> tuple[float, float]:
-    """Duration to fly ``legs`` ``(N, 3)`` and the minimum the (margined) ``limits`` allow, seconds.
-
-    ``requested`` is ``"fastest"`` or seconds; a request below the minimum gives the minimum when not
-    ``raise_if_short``, else raises :class:`PlanningError`
-    naming the transition, the minimum and the drone with the longest leg.
-    """
-    per_drone = minimum_duration(legs, limits, profile)
-    needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
-    if requested == "fastest":
-        return needed, needed
-    if requested < needed and not raise_if_short:
-        return needed, needed
-    if requested < needed:
-        slowest = int(np.argmax(per_drone))
-        raise PlanningError(
-            f"{where}: duration {requested:g} s is too short; the limits (at {settings.limit_margin:.0%}) need "
-            f"at least {needed:.2f} s (longest leg: drone {scene.fleet.drones[slowest].id}, "
-            f"{np.linalg.norm(legs[slowest]):.2f} m)")
-    return float(requested), needed
 
 
 def with_settings(scene: Scene, **changes) -> PlannerSettings:

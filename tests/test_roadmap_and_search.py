@@ -10,7 +10,7 @@ import pytest
 import trimesh
 
 from core.obstacles import ClearanceField
-from core.roadmap.build import RoadmapSettings, build_roadmap, nearest_edges, sample_free
+from core.roadmap.build import RoadmapSettings, build_roadmap, clear_neighbour_edges, sample_free
 from core.roadmap.conflicts import annotate
 from core.roadmap.graph import Roadmap
 from core.roadmap.spanner import greedy_spanner
@@ -32,8 +32,7 @@ def test_spanner_keeps_every_shortest_path_within_the_stretch(stretch):
     for every vertex pair; both distances from networkx (reference library)."""
     field = _pillar_field()
     points = sample_free(field, 150, seed=1)
-    cand = nearest_edges(points, 10)
-    dense_edges = cand[field.segments_clear(points[cand[:, 0]], points[cand[:, 1]])]
+    dense_edges = clear_neighbour_edges(field, points, 10)
     lengths = np.linalg.norm(points[dense_edges[:, 1]] - points[dense_edges[:, 0]], axis=1)
     kept = greedy_spanner(len(points), dense_edges, lengths, stretch)
     assert len(kept) < 0.8 * len(dense_edges)

@@ -71,8 +71,9 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
         for name, doc in files.items():
             (stage / name).write_text(json.dumps(doc), encoding="utf-8")
         scene_doc = scene_to_dict(scene, inline_csv=True)
+        if mesh_files:
+            (stage / "meshes").mkdir()  # copies let the folder be re-verified on its own
         for k, (mesh, copied) in enumerate(zip(scene.site.meshes, mesh_files, strict=True)):
-            (stage / "meshes").mkdir(exist_ok=True)  # copies let the folder be re-verified on its own
             shutil.copyfile(Path(result.base_dir) / mesh.file, stage / copied)
             scene_doc["site"]["meshes"][k]["file"] = copied
         (stage / "scene.json").write_text(dumps_compact(scene_doc), encoding="utf-8")

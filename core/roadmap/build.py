@@ -52,6 +52,13 @@ def nearest_edges(points: np.ndarray, k: int, among: np.ndarray | None = None) -
     return np.unique(np.sort(pairs, axis=1), axis=0)
 
 
+def clear_neighbour_edges(field: ClearanceField, points: np.ndarray, k: int, among: np.ndarray | None = None
+                          ) -> np.ndarray:
+    """The :func:`nearest_edges` ``(E, 2)`` whose segments keep clear of every obstacle."""
+    candidates = nearest_edges(points, k, among)
+    return candidates[field.segments_clear(points[candidates[:, 0]], points[candidates[:, 1]])]
+
+
 def build_roadmap(field: ClearanceField, pair_scale: np.ndarray, settings: RoadmapSettings, *,
                   progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> Roadmap:
     """Sampled sparse roadmap with its conflicts; ``pair_scale`` ``(3,)``: pair clearance half-axes (m)."""
@@ -63,8 +70,7 @@ def build_roadmap(field: ClearanceField, pair_scale: np.ndarray, settings: Roadm
                             "the obstacles (with clearance) fill it")
     cancel.check()
     progress("roadmap", 0.2, f"checking edges of {len(vertices)} vertices")
-    candidates = nearest_edges(vertices, settings.neighbours)
-    edges = candidates[field.segments_clear(vertices[candidates[:, 0]], vertices[candidates[:, 1]])]
+    edges = clear_neighbour_edges(field, vertices, settings.neighbours)
     cancel.check()
     progress("roadmap", 0.5, f"spanner of {len(edges)} edges")
     lengths = np.linalg.norm(vertices[edges[:, 1]] - vertices[edges[:, 0]], axis=1)
@@ -83,8 +89,6 @@ def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, p
     n_old, e_old = roadmap.n_vertices, len(roadmap.edges)
     vertices = np.concatenate([roadmap.vertices, points])
     index = np.arange(n_old, n_old + len(points))
-    candidates = nearest_edges(vertices, neighbours, among=index)
-    new_edges = candidates[field.segments_clear(vertices[candidates[:, 0]], vertices[candidates[:, 1]])]
-    edges = np.concatenate([roadmap.edges, new_edges])
+    edges = np.concatenate([roadmap.edges, clear_neighbour_edges(field, vertices, neighbours, among=index)])
     added = annotate_added(vertices, edges, n_old, e_old, pair_scale)
     return Roadmap(vertices, edges, roadmap.conflicts.merged(added), roadmap.n_sampled), index

@@ -60,9 +60,7 @@ class Roadmap:
         rows = np.concatenate([c.vv[:, 0], c.ve[:, 0], c.ee[:, 0] + v])
         cols = np.concatenate([c.vv[:, 1], c.ve[:, 1] + v, c.ee[:, 1] + v])
         both = np.concatenate([rows, cols, np.arange(a)]), np.concatenate([cols, rows, np.arange(a)])
-        m = sparse.coo_matrix((np.ones(len(both[0]), dtype=bool), both), shape=(a, a)).tocsr()
-        m.sum_duplicates()
-        return m
+        return sparse.coo_matrix((np.ones(len(both[0]), dtype=bool), both), shape=(a, a)).tocsr()
 
     @cached_property
     def conflict_keys(self) -> np.ndarray:
@@ -76,16 +74,6 @@ class Roadmap:
         pos = np.searchsorted(self.conflict_keys, keys)
         pos = np.minimum(pos, len(self.conflict_keys) - 1)
         return self.conflict_keys[pos] == keys
-
-    def edge_action(self, u: int, v: int) -> int:
-        """Action id of moving ``u`` → ``v`` (``u`` itself for a wait)."""
-        if u == v:
-            return u
-        return self._edge_index[(min(u, v), max(u, v))] + self.n_vertices
-
-    @cached_property
-    def _edge_index(self) -> dict[tuple[int, int], int]:
-        return {(int(u), int(v)): e for e, (u, v) in enumerate(self.edges)}
 
     def hop_distances(self, targets: np.ndarray) -> np.ndarray:
         """``(len(targets), V)`` number of edges on the fewest-edge path to each target (inf: none)."""

@@ -20,8 +20,9 @@ def box_distance_ratio(points: np.ndarray, bounds: np.ndarray, semi_axes: np.nda
     return np.linalg.norm(gap / semi_axes, axis=-1)
 
 
-def _xyz(point: np.ndarray) -> str:
-    return "(" + ", ".join(f"{c:g}" for c in point) + ")"
+def format_xyz(point: np.ndarray, spec: str = "g") -> str:
+    """``(x, y, z)`` with each coordinate formatted by ``spec`` (for messages)."""
+    return "(" + ", ".join(format(c, spec) for c in point) + ")"
 
 
 def check_scene(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, str]]:
@@ -103,10 +104,10 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
             out.append((f"{where}.groups", f"has {len(f.groups)} labels for {len(f.points)} points"))
         p = f.positions
         outside = np.nonzero(np.any((p < volume[0]) | (p > volume[1]), axis=1))[0]
-        out += _listed([(f"{where}.points[{i}]", f"{_xyz(p[i])} is outside the flight volume") for i in outside])
+        out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} is outside the flight volume") for i in outside])
         for box in scene.site.keep_out:
             hit = np.nonzero(box_distance_ratio(p, box.bounds, largest_axes) < 1.0)[0]
-            out += _listed([(f"{where}.points[{i}]", f"{_xyz(p[i])} puts a drone's clearance ellipsoid inside "
+            out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} puts a drone's clearance ellipsoid inside "
                              f"keep-out box {box.name!r}") for i in hit])
         # Unlabeled modes may put any drone on any point: use the largest pair shape.
         pairs, ratios = model.bound_pairs(p, 1.0)

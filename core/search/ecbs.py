@@ -77,23 +77,22 @@ class _Node:
         return sum(p.lower_bound for p in self.paths)
 
 
-def action_matrix(roadmap: Roadmap, paths: list[tuple[int, ...]], steps: int) -> np.ndarray:
+def action_matrix(paths: list[AgentPath], steps: int) -> np.ndarray:
     """``(N, steps)`` action id of each agent at each step (waiting at the goal after arrival)."""
     out = np.empty((len(paths), steps), dtype=np.int64)
     for i, p in enumerate(paths):
-        acts = [roadmap.edge_action(u, v) for u, v in zip(p[:-1], p[1:], strict=True)]
-        out[i, :len(acts)] = acts[:steps]
-        out[i, len(acts):] = p[-1]
+        out[i, :len(p.actions)] = p.actions[:steps]
+        out[i, len(p.actions):] = p.vertices[-1]
     return out
 
 
-def find_conflicts(roadmap: Roadmap, paths: list[tuple[int, ...]]) -> list[UnresolvedConflict]:
+def find_conflicts(roadmap: Roadmap, paths: list[AgentPath]) -> list[UnresolvedConflict]:
     """Every conflicting (pair, step), earliest first, for paths that end waiting at their goals."""
     n = len(paths)
     if n < 2:
         return []
-    steps = max(len(p) for p in paths)  # one extra step: everyone waiting at the goal
-    acts = action_matrix(roadmap, paths, steps)
+    steps = max(len(p.vertices) for p in paths)  # one extra step: everyone waiting at the goal
+    acts = action_matrix(paths, steps)
     a, b = np.triu_indices(n, k=1)
     hit = roadmap.in_conflict(acts[a], acts[b])
     pair, step = np.nonzero(hit)
@@ -117,9 +116,9 @@ def ecbs(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, w: float = 
 
     def replan(node_paths: list[AgentPath | None], agent: int, constraints: frozenset) -> AgentPath | None:
         nonlocal low_expansions
-        others = [p.vertices for k, p in enumerate(node_paths) if k != agent and p is not None]
-        steps = max((len(p) for p in others), default=1)
-        counter = ConflictCounter(roadmap, action_matrix(roadmap, others, steps))
+        others = [p for k, p in enumerate(node_paths) if k != agent and p is not None]
+        steps = max((len(p.vertices) for p in others), default=1)
+        counter = ConflictCounter(roadmap, action_matrix(others, steps))
         path, expanded = plan_agent(roadmap, starts[agent], goals[agent], hops[agent], constraints, counter, w)
         low_expansions += expanded
         return path
@@ -130,7 +129,7 @@ def ecbs(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, w: float = 
         root_paths[agent] = replan(root_paths, agent, empty)
         if root_paths[agent] is None:
             raise SearchFailed(f"agent {agent}: goal vertex {goals[agent]} cannot be reached", [], 0)
-    root = _Node([empty] * n, root_paths, find_conflicts(roadmap, [p.vertices for p in root_paths]))
+    root = _Node([empty] * n, root_paths, find_conflicts(roadmap, root_paths))
     tree = FocalQueue(w)
     tiebreak = itertools.count()
     tree.push(root, root.lower_bound, (len(root.conflicts), root.cost, next(tiebreak)), root.cost)
@@ -160,7 +159,7 @@ def ecbs(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, w: float = 
             paths = list(node.paths)
             paths[agent] = path
             child = _Node(node.constraints[:agent] + [constraints] + node.constraints[agent + 1:], paths,
-                          find_conflicts(roadmap, [p.vertices for p in paths]))
+                          find_conflicts(roadmap, paths))
             generated += 1
             tree.push(child, child.lower_bound, (len(child.conflicts), child.cost, next(tiebreak)), child.cost)
     raise SearchFailed("no conflict-free plan exists on this roadmap", best.conflicts, expanded)

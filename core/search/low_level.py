@@ -14,10 +14,12 @@ from .focal import FocalQueue
 
 @dataclass(frozen=True)
 class AgentPath:
-    """``vertices``: vertex at each step 0..cost (then it waits at the goal for ever); ``lower_bound``:
-    a proven lower bound on the optimal cost under the same constraints (steps)."""
+    """``vertices``: vertex at each step 0..cost (then it waits at the goal for ever); ``actions``:
+    action id taken in each step (``cost`` of them); ``lower_bound``: a proven lower bound on the
+    optimal cost under the same constraints (steps)."""
 
     vertices: tuple[int, ...]
+    actions: tuple[int, ...]
     lower_bound: int
 
     @property
@@ -64,7 +66,7 @@ def plan_agent(roadmap: Roadmap, start: int, goal: int, hops_to_goal: np.ndarray
     neighbours = roadmap.neighbours
     queue = FocalQueue(w)
     best_conflicts = {(start, 0): 0}
-    parent: dict[tuple[int, int], tuple[int, int] | None] = {(start, 0): None}
+    parent: dict[tuple[int, int], tuple[tuple[int, int], int] | None] = {(start, 0): None}  # (state, action)
     closed: set[tuple[int, int]] = set()
     queue.push((start, 0, 0), float(hops_to_goal[start]), (0, hops_to_goal[start], 0))
     expansions = 0
@@ -76,7 +78,7 @@ def plan_agent(roadmap: Roadmap, start: int, goal: int, hops_to_goal: np.ndarray
         closed.add((v, t))
         expansions += 1
         if v == goal and t >= goal_wait_until:
-            return AgentPath(_unwind(parent, (v, t)), int(np.ceil(f_min - 1e-9))), expansions
+            return _unwind(parent, (v, t), int(np.ceil(f_min - 1e-9))), expansions
         if t >= horizon:
             continue
         counts = counter.at(t)
@@ -87,15 +89,16 @@ def plan_agent(roadmap: Roadmap, start: int, goal: int, hops_to_goal: np.ndarray
             if state in closed or c >= best_conflicts.get(state, 1 << 30):
                 continue
             best_conflicts[state] = c
-            parent[state] = (v, t)
+            parent[state] = ((v, t), action)
             h = float(hops_to_goal[u])
             queue.push((u, t + 1, c), t + 1 + h, (c, t + 1 + h, -(t + 1)))
     return None, expansions
 
 
-def _unwind(parent: dict, state: tuple[int, int]) -> tuple[int, ...]:
-    out = []
-    while state is not None:
-        out.append(state[0])
-        state = parent[state]
-    return tuple(reversed(out))
+def _unwind(parent: dict, state: tuple[int, int], lower_bound: int) -> AgentPath:
+    vertices, actions = [state[0]], []
+    while parent[state] is not None:
+        state, action = parent[state]
+        vertices.append(state[0])
+        actions.append(action)
+    return AgentPath(tuple(reversed(vertices)), tuple(reversed(actions)), lower_bound)

@@ -36,7 +36,7 @@ def check_obstacles(traj: FleetTrajectory, spec: VerificationSpec, *,
             scaled = trimesh.Trimesh(mesh.vertices / axes, mesh.faces, process=False)
             bounds = scaled.bounds
             hull = points[drones] / axes
-            near = box_distance_ratio_hulls(hull, bounds) < 1.0  # (n_d, S, W)
+            near = _hull_box_distance(hull, bounds) < 1.0  # (n_d, S, W)
             d, s, w = np.nonzero(near)
             width = traj.durations[s] / _WINDOWS
             t_lo = traj.breaks[s] + w * width
@@ -63,9 +63,9 @@ def check_obstacles(traj: FleetTrajectory, spec: VerificationSpec, *,
     return violations
 
 
-def box_distance_ratio_hulls(hulls: np.ndarray, bounds: np.ndarray) -> np.ndarray:
-    """Distance between each hull's bounding box ``(..., K, 3)`` and the box ``bounds`` ``(2, 3)``
-    (already in scaled units) — a lower bound on the curve's distance to anything inside the box."""
+def _hull_box_distance(hulls: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    """Distance between the bounding box of each set of hull points ``(..., K, 3)`` and the box
+    ``bounds`` ``(2, 3)`` (scaled units): a lower bound on the curve's distance to anything in it."""
     low, high = hulls.min(axis=-2), hulls.max(axis=-2)
     gap = np.maximum(bounds[0] - high, 0.0) + np.maximum(low - bounds[1], 0.0)
     return np.linalg.norm(gap, axis=-1) if gap.size else np.zeros(gap.shape[:-1])

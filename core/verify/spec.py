@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 import trimesh
 
-from ..scene.meshes import load_site_meshes
+from ..scene.meshes import SiteMesh, load_site_meshes
 from ..scene.model import Scene
 
 
@@ -33,10 +33,13 @@ class VerificationSpec:
     tolerance: float = 0.01
 
 
-def spec_from_scene(scene: Scene, base_dir: Path | None = None) -> VerificationSpec:
+def spec_from_scene(scene: Scene, base_dir: Path | None = None, meshes: tuple[SiteMesh, ...] | None = None
+                    ) -> VerificationSpec:
     """The requirements stated by ``scene`` (fleet clearance and limits, flight volume, keep-out
-    boxes, obstacle meshes read from ``base_dir``, the folder mesh paths are relative to)."""
-    meshes = load_site_meshes(scene.site, Path(base_dir or "."), scene.name) if scene.site.meshes else ()
+    boxes, obstacle meshes). Meshes are read from ``base_dir`` (the folder mesh paths are relative
+    to) unless already loaded ones are passed as ``meshes``."""
+    if meshes is None:
+        meshes = load_site_meshes(scene.site, Path(base_dir or "."), scene.name) if scene.site.meshes else ()
     return VerificationSpec(
         drone_ids=scene.fleet.ids,
         semi_axes=scene.fleet.semi_axes,
