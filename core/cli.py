@@ -10,6 +10,7 @@ from . import SAFETY_CAUTION, __version__
 from .errors import Cancelled, SkyloomError
 from .export import export_plan, load_export
 from .pipeline import plan, with_settings
+from .plan_summary import plan_summary_lines
 from .progress import no_progress
 from .scene import load_scene
 from .terminal_progress import TerminalProgress
@@ -46,6 +47,14 @@ def _parser() -> argparse.ArgumentParser:
     pl.add_argument("--stretch", type=float, help="roadmap spanner stretch factor (≥ 1)")
     pl.add_argument("--time-limit", type=float, metavar="S", help="roadmap search time limit per transition (s)")
     pl.add_argument("--no-cache", action="store_true", help="rebuild the roadmap instead of reusing a cached one")
+    pl.add_argument("--no-smoothing", action="store_true",
+                    help="keep roadmap plans stop-and-go (stop at every waypoint) instead of smoothing them")
+    pl.add_argument("--iterations", type=int, metavar="N", help="most corridor/QP smoothing rounds (default 3)")
+    pl.add_argument("--objective", metavar="OBJ",
+                    help="smoothing objective: snap, jerk, acceleration, energy, or weights such as "
+                         "'acceleration=1,snap=0.01' (default: the scene's, usually snap)")
+    pl.add_argument("--workers", type=int, metavar="N",
+                    help="processes for the per-drone smoothing QPs (default: all CPUs; 1 = no extra processes)")
     pl.add_argument("--quiet", action="store_true", help="no progress bar")
 
     ck = sub.add_parser("check", help="re-verify an export folder on its own",
@@ -82,27 +91,15 @@ def _plan(args) -> int:
     progress = _progress(args)
     settings = with_settings(scene, degree=args.degree, profile=args.profile, suboptimality=args.suboptimality,
                              roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
-                             search_time_limit=args.time_limit)
+                             search_time_limit=args.time_limit, smoothing_iterations=args.iterations,
+                             objective=args.objective, smoothing=False if args.no_smoothing else None)
     result = plan(scene, settings=settings, base_dir=args.scene.parent, use_cache=not args.no_cache,
-                  progress=progress)
+                  progress=progress, workers=args.workers)
     if isinstance(progress, TerminalProgress):
         progress.close()
     for warning in result.stats.get("mesh_warnings", []):
         print(f"warning: {warning}")
-    for t in result.transitions:
-        print(f"{t.source} → {t.target}: {t.mode} ({t.assignment.method}), {t.method}, {t.duration:.2f} s "
-              f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the straight-line lower bound)")
-        if t.search:
-            f = t.search
-            print(f"  search: {f['search_nodes']} nodes expanded ({f['low_level_expansions']} low-level), "
-                  f"sum of costs {f['sum_of_costs']} steps (lower bound {f['cost_lower_bound']}, w = {f['w']:g}), "
-                  f"{f['steps']} pieces")
-    if "roadmap_vertices" in result.stats:
-        st = result.stats
-        print(f"roadmap: {st['roadmap_vertices']} vertices, {st['roadmap_edges']} edges, "
-              f"{st['roadmap_conflicts']} conflicting action pairs"
-              + (" (from cache)" if st["roadmap_cached"] else ""))
-    print("stage times: " + ", ".join(f"{k} {v:.2f} s" for k, v in result.stage_seconds.items()))
+    print("\n".join(plan_summary_lines(result)))
     print("\n".join(result.report.summary_lines()))
     if not result.report.ok:
         for v in result.report.violations[:20]:

@@ -20,7 +20,14 @@ def point_segment_distance(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.nd
 
 
 def segment_segment_distance(p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray) -> np.ndarray:
-    """Distance ``(M,)`` between segments ``p0``–``p1`` and ``q0``–``q1`` (all ``(M, 3)``).
+    """Distance ``(M,)`` between segments ``p0``–``p1`` and ``q0``–``q1`` (all ``(M, 3)``)."""
+    on_p, on_q = segment_segment_closest(p0, p1, q0, q1)
+    return np.linalg.norm(on_p - on_q, axis=1)
+
+
+def segment_segment_closest(p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray
+                            ) -> tuple[np.ndarray, np.ndarray]:
+    """Closest points ``(M, 3)`` on segments ``p0``–``p1`` and ``q0``–``q1`` (all ``(M, 3)``).
 
     Closest-point parameters by clamping (Ericson, *Real-Time Collision Detection*, 2005, §5.1.9),
     with degenerate and parallel segments handled in the same vectorised pass.
@@ -41,4 +48,4 @@ def segment_segment_distance(p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1:
     s_low = np.clip(-c / np.maximum(a, _TINY), 0.0, 1.0)
     s_high = np.clip((b - c) / np.maximum(a, _TINY), 0.0, 1.0)
     s = np.where(a > _TINY, np.where(low, s_low, np.where(high, s_high, s)), 0.0)
-    return np.linalg.norm(p0 + s[:, None] * d1 - q0 - t[:, None] * d2, axis=1)
+    return p0 + s[:, None] * d1, q0 + t[:, None] * d2

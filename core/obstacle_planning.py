@@ -1,5 +1,6 @@
 """Transitions around obstacles: clearance field, cached roadmap with the formation points
-attached, assignment by roadmap path length, ECBS, and the stop-at-every-waypoint trajectory.
+attached, assignment by roadmap path length, ECBS, then corridor smoothing (with the
+stop-at-every-waypoint trajectory as the baseline and fallback).
 
 One :class:`ObstaclePlanner` serves a whole plan; its field and roadmap are built the first time
 a transition needs them.
@@ -8,6 +9,7 @@ a transition needs them.
 from __future__ import annotations
 
 import time
+from concurrent.futures import Executor
 from functools import cached_property
 from pathlib import Path
 
@@ -26,8 +28,13 @@ from .scene.checks import format_xyz
 from .scene.meshes import SiteMesh, load_site_meshes
 from .scene.model import PlannerSettings, Scene
 from .search import SearchFailed, ecbs
+from .smoothing.smoother import SmoothingOptions, smooth_transition
+from .smoothing.terms import parse_objective, trajectory_cost
 from .straight_line import straight_leg_points
 from .timing import MIN_TRANSITION_DURATION, Profile, minimum_duration
+from .trajectory import FleetTrajectory
+from .verify import VerificationSpec
+from .verify.checker import sampled_peaks
 from .verify.discrete import check_discrete_plan
 
 
@@ -38,9 +45,9 @@ class ObstaclePlanner:
     drone–drone conflicts the largest pair clearance, so one roadmap is conservative for all drones.
     """
 
-    def __init__(self, scene: Scene, settings: PlannerSettings, base_dir: Path, *, use_cache: bool = True,
-                 progress: ProgressCallback = no_progress, cancel: CancelToken | None = None):
-        self.scene, self.settings, self.base_dir = scene, settings, Path(base_dir)
+    def __init__(self, scene: Scene, settings: PlannerSettings, base_dir: Path, executor: Executor, *,
+                 use_cache: bool = True, progress: ProgressCallback = no_progress, cancel: CancelToken | None = None):
+        self.scene, self.settings, self.base_dir, self.executor = scene, settings, Path(base_dir), executor
         self.use_cache, self.progress, self.cancel = use_cache, progress, cancel or CancelToken()
         self.envelope = scene.fleet.semi_axes.max(axis=0)
         self.pair_scale = ClearanceModel(scene.fleet.semi_axes).bound_radii
@@ -95,12 +102,13 @@ class ObstaclePlanner:
         return full, dict(zip((f.name for f in formations), np.split(index, splits), strict=True))
 
     def plan_transition(self, where: str, source: str, occupied: np.ndarray, target: str, mode: str,
-                        start_groups, goal_groups, profile: Profile, degree: int, limits: np.ndarray
+                        start_groups, goal_groups, profile: Profile, limits: np.ndarray, spec: VerificationSpec
                         ) -> tuple[Assignment, np.ndarray, np.ndarray, dict]:
         """Roadmap plan from ``source`` points ``occupied`` (per drone) to ``target``.
 
-        Returns the assignment, step durations ``(K,)`` (s), control points ``(N, K, n + 1, 3)`` of the
-        stop-and-go pieces, and search figures. Raises :class:`PlanningError` naming the drones.
+        Returns the assignment, step durations ``(K,)`` (s), control points ``(N, K, n + 1, 3)`` (the
+        smoothed pieces, or the stop-and-go ones when smoothing is off or failed) and figures
+        (search, smoothing, stop-and-go baseline). Raises :class:`PlanningError` naming the drones.
         """
         roadmap, vertex_of = self.roadmap
         starts = vertex_of[source][occupied]
@@ -134,12 +142,31 @@ class ObstaclePlanner:
             c = conflicts[0]
             raise PlanningError(f"{where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
                                 f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
-        durations, pieces = _stop_and_go(positions, profile, degree, limits)
+        positions = _moving_steps(positions)
+        durations, pieces = _stop_and_go(positions, profile, self.settings.degree, limits)
         figures = {"search_nodes": result.nodes_expanded, "search_generated": result.nodes_generated,
                    "low_level_expansions": result.low_level_expansions, "sum_of_costs": result.cost,
                    "cost_lower_bound": result.lower_bound, "w": result.w, "steps": len(durations),
-                   "search_s": result.seconds}
+                   "search_s": result.seconds, "stop_and_go": _baseline_figures(durations, pieces, ids),
+                   "smoothed": False}
+        if self.settings.smoothing and len(durations):
+            outcome = self._smooth(where, positions, limits, spec)
+            figures.update(smoothing=outcome.history, smoothing_note=outcome.note,
+                           smoothing_seconds=outcome.seconds)
+            if outcome.pieces is not None:
+                figures["smoothed"] = True
+                return chosen, outcome.durations, outcome.pieces, figures
         return chosen, durations, pieces, figures
+
+    def _smooth(self, where: str, positions: np.ndarray, limits: np.ndarray, spec: VerificationSpec):
+        s = self.settings
+        options = SmoothingOptions(s.degree, s.smoothing_iterations, parse_objective(s.objective))
+        t0 = time.perf_counter()
+        outcome = smooth_transition(where, positions, ClearanceModel(self.scene.fleet.semi_axes), self.envelope,
+                                    self.field, limits, spec, options, self.executor, progress=self.progress,
+                                    cancel=self.cancel)
+        self.seconds["smoothing"] = self.seconds.get("smoothing", 0.0) + time.perf_counter() - t0
+        return outcome
 
     def _check_reachable(self, where, roadmap, starts, goals, target, goal_index) -> None:
         label = roadmap.component_labels()
@@ -215,15 +242,28 @@ def _step_positions(roadmap: Roadmap, paths: list[tuple[int, ...]]) -> np.ndarra
     return roadmap.vertices[padded]
 
 
+def _moving_steps(positions: np.ndarray) -> np.ndarray:
+    """``positions`` ``(N, K + 1, 3)`` without the steps in which nobody moves."""
+    moves = np.any(np.abs(np.diff(positions, axis=1)) > 0, axis=(0, 2))
+    return positions[:, np.r_[True, moves]]
+
+
+def _baseline_figures(durations: np.ndarray, pieces: np.ndarray, ids) -> dict:
+    """Duration (s), sampled peak acceleration (m/s²) and ∫‖snap‖² (m²/s⁷) of stop-and-go pieces."""
+    if not len(durations):
+        return {"duration_s": 0.0, "peak_acceleration": 0.0, "snap_integral": 0.0}
+    traj = FleetTrajectory(np.r_[0.0, np.cumsum(durations)], pieces, ids)
+    return {"duration_s": float(durations.sum()), "peak_acceleration": float(sampled_peaks(traj)["acceleration"].max()),
+            "snap_integral": trajectory_cost(pieces, durations, {"snap": 1.0})}
+
+
 def _stop_and_go(positions: np.ndarray, profile: Profile, degree: int, limits: np.ndarray
                  ) -> tuple[np.ndarray, np.ndarray]:
-    """Rest-to-rest pieces between consecutive steps ``(N, K + 1, 3)``: durations ``(K',)`` and
-    control points ``(N, K', n + 1, 3)``; steps in which nobody moves are dropped."""
+    """Rest-to-rest pieces between consecutive steps ``(N, K + 1, 3)`` (somebody moves in each):
+    durations ``(K,)`` and control points ``(N, K, n + 1, 3)``."""
     durations, pieces = [], []
     for k in range(positions.shape[1] - 1):
         a, b = positions[:, k], positions[:, k + 1]
-        if not np.any(np.abs(b - a) > 0):
-            continue
         durations.append(max(float(minimum_duration(b - a, limits, profile).max()), MIN_TRANSITION_DURATION))
         pieces.append(straight_leg_points(a, b, profile, degree))
     if not pieces:

@@ -1,20 +1,24 @@
 """The planning pipeline shared by the CLI and the GUI.
 
 scene → per transition: goal assignment → straight lines if they are clear, else roadmap search
-(stop at every waypoint) → timing → trajectories → independent verification.
+and corridor smoothing (per-drone QPs through an executor) → timing → trajectories → independent
+verification.
 """
 
 from __future__ import annotations
 
 import time
+from concurrent.futures import Executor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
+from pydantic import ValidationError
 
 from .assignment import Assignment, assign
 from .clearance import ClearanceModel
-from .errors import PlanningError
+from .errors import PlanningError, SceneError
+from .executors import plan_executor
 from .obstacle_planning import ObstaclePlanner
 from .progress import CancelToken, ProgressCallback, no_progress
 from .scene.model import PlannerSettings, Scene
@@ -65,17 +69,24 @@ class PlanResult:
 
 def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str | Path | None = None,
          use_cache: bool = True, progress: ProgressCallback = no_progress,
-         cancel: CancelToken | None = None) -> PlanResult:
+         cancel: CancelToken | None = None, executor: Executor | None = None, workers: int | None = None
+         ) -> PlanResult:
     """Plan and verify every transition of ``scene``'s timeline.
 
     ``base_dir`` is the folder mesh paths are relative to (the scene file's folder); ``use_cache``
-    reuses roadmaps stored on disk. Raises :class:`PlanningError` (or :class:`SceneError`) naming
+    reuses roadmaps stored on disk. Per-drone smoothing QPs run on ``executor`` (any
+    :class:`concurrent.futures.Executor`), else on a process pool of ``workers`` (see
+    :func:`core.executors.plan_executor`). Raises :class:`PlanningError` (or :class:`SceneError`) naming
     the transition and drones when no plan can be made. A plan that fails verification is returned
     with ``report.ok`` False; callers decide what to do.
     """
-    cancel = cancel or CancelToken()
-    settings = settings or scene.planner
-    base_dir = Path(base_dir or ".")
+    with plan_executor(executor, workers) as pool:
+        return _plan(scene, settings or scene.planner, Path(base_dir or "."), use_cache, progress,
+                     cancel or CancelToken(), pool)
+
+
+def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, progress: ProgressCallback,
+          cancel: CancelToken, executor: Executor) -> PlanResult:
     profile = PROFILES[settings.profile]
     if profile.degree > settings.degree:
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
@@ -83,7 +94,8 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
     limits = scene.fleet.limits * settings.limit_margin
     clearance = ClearanceModel(scene.fleet.semi_axes)
     scale = clearance.bound_radii
-    obstacles = ObstaclePlanner(scene, settings, base_dir, use_cache=use_cache, progress=progress, cancel=cancel)
+    obstacles = ObstaclePlanner(scene, settings, base_dir, executor, use_cache=use_cache, progress=progress,
+                                cancel=cancel)
     spec = spec_from_scene(scene, meshes=obstacles.meshes)  # meshes read (and checked) once, before planning
     timings: dict[str, float] = {"assignment": 0.0, "transitions": 0.0}
 
@@ -128,12 +140,13 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
             progress("search", 0.0, f"{where}: straight lines blocked, searching the roadmap")
             chosen, step_durations, step_pieces, figures = obstacles.plan_transition(
                 where, current.name, occupied, target.name, tr.assignment, start_groups, target.groups,
-                profile, settings.degree, limits)
+                profile, limits, spec)
             goals = target.positions[chosen.goal_of]
             needed = max(float(step_durations.sum()), MIN_TRANSITION_DURATION)
             duration = _requested_duration(where, tr.duration, needed, "the roadmap plan around the obstacles needs")
-            step_durations = step_durations * (duration / needed)
-            method, guarantee = f"roadmap search (ECBS, w = {settings.suboptimality:g}), stop at every waypoint", False
+            step_durations = step_durations * (duration / needed)  # uniform: keeps the drones in step
+            method, guarantee = f"roadmap search (ECBS, w = {settings.suboptimality:g}), " + (
+                "smoothed in safe corridors" if figures["smoothed"] else "stop at every waypoint"), False
         durations += list(step_durations)
         pieces.append(step_pieces)
         labels += [f"{current.name} → {target.name}"] * len(step_durations)
@@ -178,5 +191,9 @@ def _requested_duration(where: str, requested, needed: float, needs: str, detail
 
 
 def with_settings(scene: Scene, **changes) -> PlannerSettings:
-    """``scene``'s planner settings with ``changes`` applied (e.g. ``degree=9``)."""
-    return replace(scene.planner, **{k: v for k, v in changes.items() if v is not None})
+    """``scene``'s planner settings with ``changes`` applied (e.g. ``degree=9``; None keeps a value).
+    Raises :class:`SceneError` naming each rejected option."""
+    try:
+        return replace(scene.planner, **{k: v for k, v in changes.items() if v is not None})
+    except ValidationError as exc:
+        raise SceneError([(f"planner option {'.'.join(map(str, e['loc']))}", e["msg"]) for e in exc.errors()]) from None

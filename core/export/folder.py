@@ -12,6 +12,7 @@ from pathlib import Path
 from .. import SAFETY_CAUTION, __version__
 from ..atomic import staged_folder
 from ..errors import ExportError, SceneError
+from ..plan_summary import plan_summary_lines
 from ..scene.io import dumps_compact, scene_from_dict, scene_to_dict
 from ..scene.model import Scene
 from ..trajectory import FleetTrajectory
@@ -78,7 +79,8 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
             scene_doc["site"]["meshes"][k]["file"] = copied
         (stage / "scene.json").write_text(dumps_compact(scene_doc), encoding="utf-8")
         (stage / "report.json").write_text(json.dumps({**status, **report.to_dict()}, indent=1), encoding="utf-8")
-        (stage / "report.txt").write_text(f"{header}\n\n{report.to_text()}", encoding="utf-8")
+        plan_lines = "\n".join(plan_summary_lines(result))
+        (stage / "report.txt").write_text(f"{header}\n\nPlan\n{plan_lines}\n\n{report.to_text()}", encoding="utf-8")
         (stage / "samples.csv").write_text(samples_csv(traj, sample_rate_hz, header), encoding="utf-8")
         (stage / "paths.gltf").write_text(paths_gltf(traj, gltf_samples_per_piece, status), encoding="utf-8")
         (stage / "plan.json").write_text(json.dumps(manifest, indent=1), encoding="utf-8")

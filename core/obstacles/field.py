@@ -68,24 +68,34 @@ class ClearanceField:
     def segments_clear(self, a: np.ndarray, b: np.ndarray, spacing: float | None = None) -> np.ndarray:
         """Whether each segment ``a``–``b`` (``(M, 3)`` metres) keeps a clearance margin ≥ 0 everywhere.
 
-        The flight volume is convex, so both ends inside it suffice. For boxes and meshes, points
-        every ``spacing`` scaled units (default: the voxel pitch); their margins are 1-Lipschitz in
-        scaled coordinates, so a segment passes when every sample's margin ≥ its spacing / 2.
+        The flight volume is convex, so both ends inside it suffice; boxes and meshes use
+        :meth:`segment_margins`.
         """
-        spacing = spacing or (self.grids[0].pitch if self.grids else DEFAULT_PITCH)
         a, b = np.atleast_2d(a), np.atleast_2d(b)
         lo, hi = self.flight_volume
         inside = np.all((a >= lo) & (a <= hi) & (b >= lo) & (b <= hi), axis=1)
+        return inside & (self.segment_margins(a, b, spacing) >= 0)
+
+    def segment_margins(self, a: np.ndarray, b: np.ndarray, spacing: float | None = None) -> np.ndarray:
+        """Lower bound ``(M,)`` on the margin to keep-out boxes and meshes along segments ``a``–``b``
+        (``(M, 3)`` metres; scaled units out, ``inf`` without such obstacles).
+
+        Points every ``spacing`` scaled units (default: the voxel pitch); margins are 1-Lipschitz in
+        scaled coordinates, so every point of the segment has at least the smallest sample margin
+        minus half a sample spacing.
+        """
+        a, b = np.atleast_2d(a), np.atleast_2d(b)
         if not self.keep_out and not self.grids:
-            return inside
+            return np.full(len(a), np.inf)
+        spacing = spacing or (self.grids[0].pitch if self.grids else DEFAULT_PITCH)
         length = np.linalg.norm((b - a) / self.semi_axes, axis=1)
         n = np.maximum(np.ceil(length / spacing).astype(np.int64), 1)
         row = np.repeat(np.arange(len(a)), n + 1)
         offsets = np.cumsum(np.r_[0, n[:-1] + 1])
         frac = (np.arange(len(row)) - offsets[row]) / n[row]
         points = a[row] + frac[:, None] * (b - a)[row]
-        ok = self.margin_parts(points)[1:].min(axis=0) >= 0.5 * (length[row] / n[row])
-        return inside & np.logical_and.reduceat(ok, offsets)
+        bound = self.margin_parts(points)[1:].min(axis=0) - 0.5 * (length[row] / n[row])
+        return np.minimum.reduceat(bound, offsets)
 
 
 def _digest(mesh: SiteMesh) -> str:

@@ -9,8 +9,10 @@ from functools import cached_property
 from typing import Annotated, Literal
 
 import numpy as np
-from pydantic import ConfigDict, Field
+from pydantic import AfterValidator, ConfigDict, Field
 from pydantic.dataclasses import dataclass
+
+from ..smoothing.terms import parse_objective
 
 _STRICT = ConfigDict(extra="forbid", frozen=True)
 
@@ -164,6 +166,11 @@ class Timeline:
     start_hold: NonNegative = 0.0
 
 
+def _objective_text(text: str) -> str:
+    parse_objective(text)  # raises ValueError with the reason
+    return text
+
+
 @dataclass(config=_STRICT)
 class PlannerSettings:
     """Planner options stored with the scene.
@@ -172,7 +179,7 @@ class PlannerSettings:
     rest is headroom for the verifier's tolerance and for tracking (common practice, no source).
     """
 
-    degree: Annotated[int, Field(ge=5, le=15)] = 7
+    degree: Annotated[int, Field(ge=5, le=15)] = 9
     profile: Literal["min_snap", "min_jerk"] = "min_snap"
     limit_margin: Annotated[float, Field(gt=0.5, le=1.0)] = 0.95
     #: Roadmap (used where straight lines are blocked): free-space samples drawn, neighbours tried
@@ -186,6 +193,11 @@ class PlannerSettings:
     #: Multi-agent search: suboptimality factor w ≥ 1 (sum of costs ≤ w × optimal), time limit (s).
     suboptimality: Annotated[float, Field(ge=1.0, le=10.0)] = 2.0
     search_time_limit: Annotated[float, Field(gt=0.0, le=3600.0)] = 60.0
+    #: Smoothing of roadmap plans: on/off, most QP rounds, objective (a name or term weights, see
+    #: :func:`core.smoothing.terms.parse_objective`).
+    smoothing: bool = True
+    smoothing_iterations: Annotated[int, Field(ge=1, le=50)] = 3
+    objective: Annotated[str, AfterValidator(_objective_text)] = "snap"
 
 
 @dataclass(config=_STRICT, kw_only=True)

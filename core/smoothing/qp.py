@@ -1,0 +1,240 @@
+"""One drone's piecewise-Bézier QP, built directly as sparse matrices and solved with OSQP.
+
+Variables are the control points of the drone's ``K`` pieces, ``x[(k (n+1) + i) 3 + d]`` (metres).
+Constraints: rest at both ends, continuity at joins, every control point inside its piece's corridor
+(half-spaces) and the flight volume, and the velocity/acceleration control points inside the limit
+polytopes. By the Bézier convex-hull property the whole curve then satisfies them.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import osqp
+import scipy.sparse as sp
+
+from .limits import ACCELERATION_DIRECTIONS, HORIZONTAL_DIRECTIONS, inscribed_scale
+from .terms import continuity_order, difference_operator, piece_cost_matrix, rest_order
+
+_AXES = np.eye(3)
+_VERTICAL = np.array([[0.0, 0.0, 1.0]])
+#: OSQP tolerances and iteration cap. Polishing rarely succeeds on these degenerate active sets,
+#: so equalities are made exact afterwards by projection (:func:`_project_onto_equalities`).
+SOLVER_OPTIONS = {"eps_abs": 1e-5, "eps_rel": 1e-5, "max_iter": 40_000, "polishing": True, "alpha": 1.8,
+                  "warm_starting": True, "verbose": False}
+#: A solution may overstep an inequality row (scaled to unit ∞-norm; metres for corridors) by this
+#: much: 20× below the corridor slack (:data:`core.smoothing.corridors.PLANE_SLACK`, scaled units)
+#: and half the volume's.
+FEASIBILITY_TOLERANCE = 5e-4
+#: The flight volume is shrunk by this much (m) where the start and goal leave room.
+VOLUME_SLACK = 1e-3
+
+
+@dataclass(frozen=True, eq=False)
+class DroneProblem:
+    """Everything one drone's QP needs (picklable, so it can travel to a worker process).
+
+    durations : (K,) s; start, goal : (3,) m; normals : (R, 3) unit world normals with offsets
+    (R,) m — row ``r`` requires ``normals[r] · p ≤ offsets[r]`` for every control point ``p`` of
+    piece ``pieces[r]``; partners : (R,) index of the other drone of a pair plane, -1 for obstacle
+    rows; volume : (2, 3) m; limits : (3,) max horizontal speed, vertical speed (m/s), acceleration
+    norm (m/s²); weights : objective term weights; initial : (K, n + 1, 3) warm start or None.
+    """
+
+    drone: int
+    degree: int
+    durations: np.ndarray
+    start: np.ndarray
+    goal: np.ndarray
+    normals: np.ndarray
+    offsets: np.ndarray
+    pieces: np.ndarray
+    partners: np.ndarray
+    volume: np.ndarray
+    limits: np.ndarray
+    weights: dict[str, float]
+    initial: np.ndarray | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class DroneSolution:
+    """Outcome of :func:`solve_drone`: ``points`` ``(K, n + 1, 3)`` when ``ok``; otherwise ``culprit``
+    names the piece and the constraint family that blocks it (from OSQP's infeasibility certificate)."""
+
+    drone: int
+    ok: bool
+    status: str
+    points: np.ndarray | None
+    objective: float
+    iterations: int
+    seconds: float
+    culprit: tuple[int, str] | None = None
+    facts: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True, eq=False)
+class QPMatrices:
+    """``min xᵀPx`` (the objective integral / ``cost_scale``) s.t. ``l ≤ Ax ≤ u``; each row of ``A``
+    has a piece index and a constraint family name."""
+
+    P: sp.csc_matrix
+    A: sp.csc_matrix
+    lower: np.ndarray
+    upper: np.ndarray
+    row_piece: np.ndarray
+    row_family: list[str]
+    cost_scale: float
+
+
+def build_matrices(problem: DroneProblem) -> QPMatrices:
+    """The sparse QP of ``problem``; rows are scaled to unit ∞-norm and the cost to unit peak."""
+    n, h = problem.degree, np.asarray(problem.durations, dtype=float)
+    k_count = len(h)
+    n_vars = k_count * (n + 1) * 3
+    blocks = [sp.kron(piece_cost_matrix(n, float(hk), problem.weights), sp.eye(3)) for hk in h]
+    P = sp.block_diag(blocks, format="csc")
+    cost_scale = float(abs(P).max()) or 1.0
+    rows = _RowBuilder(n, k_count)
+    _rest_rows(rows, problem)
+    _join_rows(rows, n, h)
+    if len(problem.pieces):
+        rows.add(np.repeat(problem.pieces, n + 1), np.tile(np.arange(n + 1), len(problem.pieces)),
+                 np.ones((len(problem.pieces) * (n + 1), 1)), np.repeat(problem.normals, n + 1, axis=0),
+                 -np.inf, np.repeat(problem.offsets, n + 1),
+                 [f"corridor ({'obstacles' if p < 0 else f'drone #{p}'})" for p in np.repeat(problem.partners, n + 1)])
+    pieces_all, cps_all = np.divmod(np.arange(k_count * (n + 1)), n + 1)
+    ends = np.stack([problem.start, problem.goal])
+    low = np.minimum(problem.volume[0] + VOLUME_SLACK, ends.min(axis=0))
+    high = np.maximum(problem.volume[1] - VOLUME_SLACK, ends.max(axis=0))
+    for d in range(3):
+        rows.add(pieces_all, cps_all, np.ones((len(cps_all), 1)), np.tile(_AXES[d], (len(cps_all), 1)),
+                 low[d], high[d], "flight volume")
+    vh, vv, acc = problem.limits
+    _limit_rows(rows, h, n, [-1.0, 1.0], HORIZONTAL_DIRECTIONS, vh * inscribed_scale(HORIZONTAL_DIRECTIONS) / n,
+                1, "horizontal speed")
+    _limit_rows(rows, h, n, [-1.0, 1.0], _VERTICAL, vv / n, 1, "vertical speed")
+    if n >= 2:
+        _limit_rows(rows, h, n, [1.0, -2.0, 1.0], ACCELERATION_DIRECTIONS,
+                    acc * inscribed_scale(ACCELERATION_DIRECTIONS) / (n * (n - 1)), 2, "acceleration")
+    A, lower, upper, piece, family = rows.finish(n_vars)
+    return QPMatrices(P / cost_scale, A, lower, upper, piece, family, cost_scale)
+
+
+def solve_drone(problem: DroneProblem) -> DroneSolution:
+    """Build and solve ``problem`` with OSQP (top-level so process pools can run it)."""
+    t0 = time.perf_counter()
+    m = build_matrices(problem)
+    solver = osqp.OSQP()
+    solver.setup(m.P, np.zeros(m.P.shape[0]), m.A, m.lower, m.upper, **SOLVER_OPTIONS)
+    if problem.initial is not None:
+        solver.warm_start(x=np.asarray(problem.initial, dtype=float).ravel())
+    result = solver.solve(raise_error=False)
+    status = result.info.status
+    k_count, n = len(problem.durations), problem.degree
+    facts = {"rows": m.A.shape[0], "variables": m.A.shape[1], "nonzeros": m.A.nnz + m.P.nnz}
+    if result.info.status_val in (osqp.SolverStatus.OSQP_SOLVED, osqp.SolverStatus.OSQP_SOLVED_INACCURATE):
+        x = _project_onto_equalities(m, result.x)
+        ax = m.A @ x
+        overstep = float(max(np.max(m.lower - ax), np.max(ax - m.upper), 0.0))
+        if overstep <= FEASIBILITY_TOLERANCE:
+            return DroneSolution(problem.drone, True, status, x.reshape(k_count, n + 1, 3),
+                                 float(x @ (m.P @ x)) * m.cost_scale, result.info.iter,
+                                 time.perf_counter() - t0, facts=facts)
+        worst = int(np.argmax(np.maximum(m.lower - ax, ax - m.upper)))
+        status = f"{status}, but a constraint is overstepped by {overstep:.1e}"
+    else:
+        certificate = result.prim_inf_cert
+        worst = int(np.argmax(np.abs(certificate))) if certificate is not None and np.any(certificate) else -1
+    culprit = (int(m.row_piece[worst]), m.row_family[worst]) if worst >= 0 else None
+    return DroneSolution(problem.drone, False, status, None, float("nan"), result.info.iter,
+                         time.perf_counter() - t0, culprit, facts)
+
+
+def _project_onto_equalities(m: QPMatrices, x: np.ndarray) -> np.ndarray:
+    """``x`` moved the least (2-norm) to satisfy every equality row exactly (rest, continuity):
+    ``x − Aₑᵀ (Aₑ Aₑᵀ)⁻¹ (Aₑ x − bₑ)``; inequalities move by about the solver tolerance."""
+    equal = m.lower == m.upper
+    a_eq = m.A[equal]
+    residual = a_eq @ x - m.lower[equal]
+    correction = np.linalg.lstsq((a_eq @ a_eq.T).toarray(), residual, rcond=None)[0]
+    return x - a_eq.T @ correction
+
+
+class _RowBuilder:
+    """Collects constraint rows ``l ≤ Σ_t w_t (dir · b_{piece, first + t}) ≤ u`` in COO form."""
+
+    def __init__(self, degree: int, n_pieces: int):
+        self.width, self.n_pieces = degree + 1, n_pieces
+        self.rows, self.cols, self.vals = [], [], []
+        self.lower, self.upper, self.piece, self.family = [], [], [], []
+        self.count = 0
+
+    def add(self, piece, first, weights, directions, lower, upper, family: str | list[str],
+            row_ids: np.ndarray | None = None) -> np.ndarray:
+        """Rows ``(M,)``: stencil ``weights`` ``(M, L)`` over control points ``first … first + L - 1``
+        of ``piece`` ``(M,)``, each projected on ``directions`` ``(M, 3)``. Passing ``row_ids`` adds
+        terms to rows already made (their bounds are kept). Returns the row ids."""
+        piece, first = np.asarray(piece), np.asarray(first)
+        weights, directions = np.atleast_2d(weights), np.atleast_2d(directions)
+        m, stencil = len(piece), weights.shape[1]
+        if row_ids is None:
+            row_ids = self.count + np.arange(m)
+            self.count += m
+            self.lower.append(np.broadcast_to(lower, (m,)).astype(float))
+            self.upper.append(np.broadcast_to(upper, (m,)).astype(float))
+            self.piece.append(piece)
+            self.family += [family] * m if isinstance(family, str) else list(family)
+        cp = first[:, None] + np.arange(stencil)[None, :]
+        base = (piece[:, None] * self.width + cp) * 3
+        self.rows.append(np.broadcast_to(row_ids[:, None, None], (m, stencil, 3)).ravel())
+        self.cols.append((base[:, :, None] + np.arange(3)).ravel())
+        self.vals.append((weights[:, :, None] * directions[:, None, :]).ravel())
+        return row_ids
+
+    def finish(self, n_vars: int):
+        A = sp.coo_matrix((np.concatenate(self.vals), (np.concatenate(self.rows), np.concatenate(self.cols))),
+                          shape=(self.count, n_vars)).tocsr()
+        A.sum_duplicates()
+        norm = np.asarray(abs(A).max(axis=1).todense()).ravel()
+        norm[norm == 0] = 1.0
+        scale = sp.diags(1.0 / norm)
+        lower, upper = np.concatenate(self.lower) / norm, np.concatenate(self.upper) / norm
+        return (scale @ A).tocsc(), lower, upper, np.concatenate(self.piece), self.family
+
+
+def _rest_rows(rows: _RowBuilder, problem: DroneProblem) -> None:
+    """Start and goal positions, and derivatives ``1 … rest_order`` zero there."""
+    n, last = problem.degree, len(problem.durations) - 1
+    for r in range(rest_order(problem.weights) + 1):
+        d = difference_operator(n, r)
+        for piece, stencil, first, target, family in ((0, d[0, : r + 1], 0, problem.start, "rest at start"),
+                                                      (last, d[-1, n - r:], n - r, problem.goal, "rest at goal")):
+            value = target if r == 0 else np.zeros(3)
+            rows.add(np.full(3, piece), np.full(3, first), np.tile(stencil, (3, 1)), _AXES, value, value, family)
+
+
+def _join_rows(rows: _RowBuilder, n: int, h: np.ndarray) -> None:
+    """Derivatives ``0 … continuity_order`` equal on both sides of every join (time units)."""
+    k = np.repeat(np.arange(len(h) - 1), 3)
+    if len(k) == 0:
+        return
+    axes = np.tile(_AXES, (len(h) - 1, 1))
+    for r in range(continuity_order(n) + 1):
+        d = difference_operator(n, r)
+        ids = rows.add(k, np.full(len(k), n - r), d[-1, n - r:][None, :] / h[k, None] ** r, axes, 0.0, 0.0,
+                       "continuity at a join")
+        rows.add(k + 1, np.zeros(len(k), dtype=int), -d[0, : r + 1][None, :] / h[k + 1, None] ** r, axes,
+                 0.0, 0.0, "", row_ids=ids)
+
+
+def _limit_rows(rows: _RowBuilder, h: np.ndarray, n: int, stencil: list[float], directions: np.ndarray,
+                bound_per_h: float, order: int, family: str) -> None:
+    """``|dir · Δ^order b_j| ≤ bound_per_h · h**order`` for every piece, start ``j`` and direction."""
+    count = n + 1 - order
+    piece, first, which = np.meshgrid(np.arange(len(h)), np.arange(count), np.arange(len(directions)),
+                                      indexing="ij")
+    piece, first, which = piece.ravel(), first.ravel(), which.ravel()
+    bound = bound_per_h * h[piece] ** order
+    rows.add(piece, first, np.tile(stencil, (len(piece), 1)), directions[which], -bound, bound, family)
