@@ -29,7 +29,8 @@ def bridge_result():
 def test_bridge_plan_goes_round_the_bridge_and_verifies(bridge_result):
     assert bridge_result.verified
     assert any(v.kind == "obstacle" for v in bridge_result.report.violations) is False
-    assert all("roadmap" in t.method for t in bridge_result.transitions)
+    assert all("roadmap" in t.method and "smoothed" in t.method for t in bridge_result.transitions)
+    assert not any(v.kind == "obstacle" for v in bridge_result.report.violations)
     assert bridge_result.stats["roadmap_vertices"] > 500 and bridge_result.stats["roadmap_conflicts"] > 0
     # Independent discrete check on the waypoints the trajectory stops at (ends of its pieces).
     traj = bridge_result.trajectory
@@ -65,7 +66,9 @@ def test_verifier_catches_a_straight_line_through_the_bridge_deck():
 def test_courtyard_swap_of_32_drones_verifies():
     result = plan(load_scene(SAMPLES / "courtyard_swap.json"), base_dir=SAMPLES)
     assert result.verified and result.trajectory.n_drones == 32
-    assert "roadmap" in result.transitions[0].method
+    t = result.transitions[0]
+    assert "roadmap" in t.method and "smoothed" in t.method
+    assert t.duration < t.search["stop_and_go"]["duration_s"]
 
 
 def _wall_scene(tmp_path, goal_y, wall_extents=(20.0, 1.0, 10.0)):
