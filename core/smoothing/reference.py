@@ -60,10 +60,11 @@ def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variab
     return cp.Problem(cp.Minimize(cost), cons), b
 
 
-def solve_reference(problem: DroneProblem, solver: str = "CLARABEL") -> tuple[np.ndarray, float]:
-    """Control points ``(K, n + 1, 3)`` and objective of ``problem`` solved by cvxpy with ``solver``."""
+def solve_reference(problem: DroneProblem, solver: str = "CLARABEL", **options) -> tuple[np.ndarray, float]:
+    """Control points ``(K, n + 1, 3)`` and objective of ``problem`` solved by cvxpy with ``solver``
+    (``options`` go to the solver)."""
     prob, b = reference_problem(problem)
-    prob.solve(solver=solver, canon_backend=cp.SCIPY_CANON_BACKEND)
+    prob.solve(solver=solver, canon_backend=cp.SCIPY_CANON_BACKEND, **options)
     if prob.status not in ("optimal", "optimal_inaccurate"):
         raise RuntimeError(f"reference solver: {prob.status}")
     return np.stack([v.value for v in b]), float(prob.value)

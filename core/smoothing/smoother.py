@@ -86,13 +86,14 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     planes = initial_planes(starts, ends, clearance, envelope)
     seconds["corridors"] += time.perf_counter() - t0
     previous = stop_at_vertices_points(starts, ends, options.degree)
+    references = [trajectory_cost(previous[i], qp_durations, options.weights) for i in range(len(positions))]
     best_objective = np.inf
     for it in range(options.iterations):
         cancel.check()
         progress("smoothing", it / options.iterations, f"{where}: iteration {it + 1} of {options.iterations}")
         t0 = time.perf_counter()
-        problems = [_problem(i, positions, qp_durations, tubes, planes, spec, limits, options, previous[i])
-                    for i in range(len(positions))]
+        problems = [_problem(i, positions, qp_durations, tubes, planes, spec, limits, options, previous[i],
+                             references[i]) for i in range(len(positions))]
         solutions: list[DroneSolution] = list(executor.map(solve_drone, problems))
         seconds["qp"] += time.perf_counter() - t0
         failed = [s for s in solutions if not s.ok]
@@ -126,11 +127,11 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
 
 
 def _problem(i: int, positions: np.ndarray, durations: np.ndarray, tubes: Tubes, planes: PairPlanes,
-             spec: VerificationSpec, limits: np.ndarray, options: SmoothingOptions, initial: np.ndarray
-             ) -> DroneProblem:
+             spec: VerificationSpec, limits: np.ndarray, options: SmoothingOptions, initial: np.ndarray,
+             reference: float) -> DroneProblem:
     normals, offsets, steps, partners = drone_rows(i, tubes, planes)
     return DroneProblem(i, options.degree, durations, positions[i, 0], positions[i, -1], normals, offsets, steps,
-                        partners, spec.flight_volume, limits[i], options.weights, initial)
+                        partners, spec.flight_volume, limits[i], options.weights, initial, reference or None)
 
 
 def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> float:
