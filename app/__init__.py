@@ -1,0 +1,1 @@
+"""Skyloom's desktop designer (PySide6 + pyqtgraph). All computation comes from ``core``."""

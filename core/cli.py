@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import importlib
 import sys
 from pathlib import Path
 
@@ -62,6 +63,10 @@ def _parser() -> argparse.ArgumentParser:
     ck.add_argument("folder", type=Path, help="export folder written by 'skyloom plan'")
     ck.add_argument("--quiet", action="store_true", help="no progress bar")
 
+    gui = sub.add_parser("gui", help="open the desktop designer",
+                         description="Open the desktop designer on SCENE (default: the bridge sample scene).")
+    gui.add_argument("scene", type=Path, nargs="?", help="scene file (.json)")
+
     info = sub.add_parser("info", help="validate a scene file and summarise it")
     info.add_argument("scene", type=Path, help="scene file (.json)")
     return p
@@ -70,7 +75,7 @@ def _parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     try:
-        return {"plan": _plan, "check": _check, "info": _info}[args.command](args)
+        return {"plan": _plan, "check": _check, "info": _info, "gui": _gui}[args.command](args)
     except Cancelled:
         print("skyloom: cancelled", file=sys.stderr)
         return EXIT_CANCELLED
@@ -128,6 +133,12 @@ def _check(args) -> int:
         print("warning: the export claims it was verified, but this check fails", file=sys.stderr)
     print(f"Safety: {SAFETY_CAUTION}")
     return EXIT_OK if report.ok else EXIT_UNSAFE
+
+
+def _gui(args) -> int:
+    # The designer lives in app/ (Qt); core itself never imports Qt, so it is loaded only here.
+    designer = importlib.import_module("app.main")
+    return designer.run(args.scene)
 
 
 def _info(args) -> int:

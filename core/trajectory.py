@@ -13,6 +13,10 @@ import numpy as np
 
 from .bezier import bernstein_basis, derivative_control_points, monomial_coefficients, split_equal_parts
 
+#: Motion magnitudes people read off a plan: (name, derivative order, axes whose norm is taken).
+MOTION_QUANTITIES = (("speed_xy", 1, slice(0, 2)), ("speed_z", 1, slice(2, 3)), ("acceleration", 2, slice(None)),
+                     ("jerk", 3, slice(None)), ("snap", 4, slice(None)))
+
 
 @dataclass(frozen=True, eq=False)
 class FleetTrajectory:

@@ -2,12 +2,28 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pytest
 
 from core.scene import scene_from_dict
 
 ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
+
+# Qt: a real X server (CI runs pytest under xvfb-run) gives OpenGL; without one, widgets still run
+# on the offscreen platform and the tests that need OpenGL are skipped with that reason.
+os.environ.setdefault("QT_QPA_PLATFORM", "xcb" if os.environ.get("DISPLAY") else "offscreen")
+HAS_OPENGL = os.environ["QT_QPA_PLATFORM"] == "xcb"
+
+
+def pytest_configure(config):
+    """Before pytest-qt makes the QApplication: share GL contexts, as the designer does (pyqtgraph
+    caches shader programs, which must outlive the view that compiled them)."""
+    from app.main import prepare_qt
+
+    prepare_qt()
+
 
 
 def scene_dict(formations: dict[str, np.ndarray], transitions: list[dict], *, radius_xy=0.2, radius_z=0.5,

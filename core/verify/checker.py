@@ -15,7 +15,7 @@ import numpy as np
 from ..clearance import ClearanceModel
 from ..progress import CancelToken, ProgressCallback, no_progress
 from ..scene.checks import box_distance_ratio
-from ..trajectory import FleetTrajectory
+from ..trajectory import MOTION_QUANTITIES, FleetTrajectory
 from .certify import SAFE, UNPROVEN, Certificate, certify
 from .report import Violation
 from .spec import VerificationSpec
@@ -247,9 +247,7 @@ def sampled_peaks(traj: FleetTrajectory) -> dict[str, np.ndarray]:
     tau = (np.arange(PEAK_SAMPLES_PER_PIECE) + 0.5) / PEAK_SAMPLES_PER_PIECE
     grid = np.r_[(traj.breaks[:-1, None] + traj.durations[:, None] * tau[None, :]).ravel(), traj.breaks]
     out = {}
-    quantities = (("speed_xy", 1, slice(0, 2)), ("speed_z", 1, slice(2, 3)), ("acceleration", 2, slice(None)),
-                  ("jerk", 3, slice(None)), ("snap", 4, slice(None)))
-    for name, order, axes in quantities:
+    for name, order, axes in MOTION_QUANTITIES:
         peak = np.zeros(traj.n_drones)
         for lo in range(0, len(grid), _TIME_CHUNK):
             values = np.linalg.norm(traj.evaluate(grid[lo:lo + _TIME_CHUNK], order)[..., axes], axis=-1)

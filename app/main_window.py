@@ -1,0 +1,253 @@
+"""The designer window: panels on the left, the 3D site and the layout views in the middle,
+motion plots and findings below, the time bar and planning controls at the bottom."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtWidgets import (
+    QDockWidget,
+    QFileDialog,
+    QLabel,
+    QMainWindow,
+    QMessageBox,
+    QProgressBar,
+    QPushButton,
+    QTabWidget,
+    QVBoxLayout,
+    QWidget,
+)
+
+from core import SAFETY_CAUTION
+from core.errors import SkyloomError
+from core.plan_summary import plan_summary_lines
+
+from .document import Document
+from .export_dialog import ExportDialog
+from .findings_table import FindingsTable
+from .fleet_panel import FleetPanel
+from .formation_panel import FormationPanel
+from .layout_view import LayoutView
+from .motion_plots import MotionPlots
+from .plan_runner import PlanRunner
+from .planner_panel import PlannerPanel
+from .site_view import SiteView
+from .time_bar import TimeBar
+from .timeline_panel import TimelinePanel
+
+SCENE_FILTER = "Skyloom scenes (*.json)"
+
+
+class MainWindow(QMainWindow):
+    """Owns the views; the :class:`Document` owns the data."""
+
+    def __init__(self, document: Document):
+        super().__init__()
+        self.document = document
+        self.runner = PlanRunner(document, self)
+        self.site = SiteView(document)
+        self.layout_view = LayoutView(document)
+        self.centre = QTabWidget()
+        self.centre.addTab(self.site, "Site (3D)")
+        self.centre.addTab(self.layout_view, "Formation layout")
+        self.time_bar = TimeBar(document)
+        middle = QWidget()
+        column = QVBoxLayout(middle)
+        column.setContentsMargins(0, 0, 0, 0)
+        column.addWidget(self.centre, 1)
+        column.addWidget(self.time_bar)
+        self.setCentralWidget(middle)
+        self.formations = FormationPanel(document)
+        self.timeline = TimelinePanel(document)
+        self.fleet = FleetPanel(document)
+        self.planner = PlannerPanel(document)
+        self.plots = MotionPlots(document)
+        self.findings = FindingsTable(document)
+        self.summary = QLabel(wordWrap=True)
+        self.summary.setAlignment(Qt.AlignmentFlag.AlignTop)
+        left = QTabWidget()
+        for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.fleet, "Fleet"),
+                             (self.planner, "Planner")):
+            left.addTab(widget, name)
+        self._dock(left, "Scene", Qt.DockWidgetArea.LeftDockWidgetArea)
+        bottom = QTabWidget()
+        bottom.addTab(self.plots, "Motion")
+        bottom.addTab(self.findings, "Findings")
+        bottom.addTab(self.summary, "Plan summary")
+        inspect = self._dock(bottom, "Inspect", Qt.DockWidgetArea.BottomDockWidgetArea)
+        self.plan_button, self.cancel_button = QPushButton("Plan"), QPushButton("Cancel")
+        self.cancel_button.setEnabled(False)
+        self.progress = QProgressBar(maximum=1000)
+        self.progress.setMaximumWidth(320)
+        self.stage = QLabel("ready")
+        toolbar = self.addToolBar("Planning")
+        toolbar.setObjectName("Planning")
+        toolbar.setMovable(False)
+        for w in (self.plan_button, self.cancel_button, self.progress, self.stage):
+            toolbar.addWidget(w)
+        self.statusBar().showMessage("Plans must be checked in simulation and flown by qualified operators "
+                                     "under the local aviation rules.")
+        self._menus()
+        self.plan_button.clicked.connect(self.start_plan)
+        self.cancel_button.clicked.connect(self.runner.cancel)
+        self.runner.progress.connect(self._progress)
+        self.runner.done.connect(self._plan_done)
+        self.runner.failed.connect(self._show_error)
+        self.findings.focus_requested.connect(self._focus_drones)
+        document.message.connect(self._show_error)
+        document.plan_changed.connect(self._show_summary)
+        document.path_changed.connect(self._update_title)
+        document.undo_stack.cleanChanged.connect(self._update_title)
+        document.formation_chosen.connect(self.site.show_formation)
+        self._update_title()
+        self.resize(1500, 950)
+        self.resizeDocks([inspect], [330], Qt.Orientation.Vertical)
+
+    def _dock(self, widget: QWidget, title: str, area) -> QDockWidget:
+        dock = QDockWidget(title, self)
+        dock.setObjectName(title)
+        dock.setWidget(widget)
+        features = QDockWidget.DockWidgetFeature
+        dock.setFeatures(features.DockWidgetMovable | features.DockWidgetFloatable)
+        self.addDockWidget(area, dock)
+        return dock
+
+    def _menus(self) -> None:
+        file_menu = self.menuBar().addMenu("&File")
+        self._action(file_menu, "&Open…", self.open_dialog, QKeySequence.StandardKey.Open)
+        self.recent_menu = file_menu.addMenu("Open &recent")
+        self.recent_menu.aboutToShow.connect(self._fill_recent)
+        self._action(file_menu, "&Save", self.save, QKeySequence.StandardKey.Save)
+        self._action(file_menu, "Save &as…", self.save_as, QKeySequence.StandardKey.SaveAs)
+        file_menu.addSeparator()
+        self._action(file_menu, "&Export plan…", self.export, "Ctrl+E")
+        file_menu.addSeparator()
+        self._action(file_menu, "&Quit", self.close, QKeySequence.StandardKey.Quit)
+        edit = self.menuBar().addMenu("&Edit")
+        undo = self.document.undo_stack.createUndoAction(self, "&Undo")
+        undo.setShortcut(QKeySequence.StandardKey.Undo)
+        redo = self.document.undo_stack.createRedoAction(self, "&Redo")
+        redo.setShortcut(QKeySequence.StandardKey.Redo)
+        edit.addActions([undo, redo])
+        self._action(edit, "&Delete selected points", self.layout_view.delete_selected, QKeySequence.StandardKey.Delete)
+        plan_menu = self.menuBar().addMenu("&Plan")
+        self._action(plan_menu, "&Plan the timeline", self.start_plan, "F5")
+        self._action(plan_menu, "&Cancel planning", self.runner.cancel, "Esc")
+        view = self.menuBar().addMenu("&View")
+        self._action(view, "Frame the &site", self.site.frame_all, "Home")
+        help_menu = self.menuBar().addMenu("&Help")
+        self._action(help_menu, "&Safety", lambda: QMessageBox.information(self, "Safety", SAFETY_CAUTION))
+
+    def _action(self, menu, text, slot, shortcut=None) -> QAction:
+        action = QAction(text, self)
+        if shortcut is not None:
+            action.setShortcut(QKeySequence(shortcut))
+        action.triggered.connect(slot)
+        menu.addAction(action)
+        return action
+
+    # --- files -------------------------------------------------------------------------------
+    def open_path(self, path: Path) -> bool:
+        try:
+            self.document.open(Path(path))
+        except SkyloomError as exc:
+            self._show_error(str(exc))
+            return False
+        self.site.frame_all()
+        self.layout_view.frame()
+        return True
+
+    def open_dialog(self) -> None:
+        path, _ = QFileDialog.getOpenFileName(self, "Open scene", str(self.document.base_dir), SCENE_FILTER)
+        if path:
+            self.open_path(Path(path))
+
+    def save(self) -> None:
+        if self.document.path is None:
+            self.save_as()
+            return
+        self._write(self.document.path)
+
+    def save_as(self) -> None:
+        path, _ = QFileDialog.getSaveFileName(self, "Save scene", str(self.document.base_dir), SCENE_FILTER)
+        if path:
+            self._write(Path(path))
+
+    def _write(self, path: Path) -> None:
+        try:
+            self.document.save(path)
+        except (OSError, SkyloomError) as exc:
+            self._show_error(f"could not save {path}: {exc}")
+            return
+        self.statusBar().showMessage(f"saved {path}", 5000)
+
+    def _fill_recent(self) -> None:
+        self.recent_menu.clear()
+        for path in self.document.recent_files():
+            self.recent_menu.addAction(path, lambda p=path: self.open_path(Path(p)))
+
+    def export(self) -> None:
+        if self.document.plan is None:
+            self._show_error("Plan the scene before exporting.")
+            return
+        stem = self.document.path.stem if self.document.path else self.document.scene.name
+        dialog = ExportDialog(self.document.plan, self.document.base_dir / f"{stem}_export", self)
+        if dialog.exec():
+            try:
+                folder = dialog.write()
+            except (OSError, SkyloomError) as exc:
+                self._show_error(f"export failed, nothing was replaced: {exc}")
+                return
+            self.statusBar().showMessage(f"wrote {folder}", 8000)
+
+    # --- planning ----------------------------------------------------------------------------
+    def start_plan(self) -> None:
+        if self.runner.start():
+            self.plan_button.setEnabled(False)
+            self.cancel_button.setEnabled(True)
+            self.progress.setValue(0)
+            self.stage.setText("starting")
+
+    def _progress(self, stage: str, fraction: float, message: str) -> None:
+        self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.stage.setText(f"{stage}: {message}"[:120])
+
+    def _plan_done(self, text: str) -> None:
+        self.plan_button.setEnabled(True)
+        self.cancel_button.setEnabled(False)
+        self.stage.setText(text)
+
+    def _show_summary(self) -> None:
+        plan = self.document.plan
+        if plan is not None:
+            lines = [*plan.report.summary_lines(), "", *plan_summary_lines(plan), "", f"Safety: {SAFETY_CAUTION}"]
+            self.summary.setText("\n".join(lines))
+
+    def _focus_drones(self, drones: tuple) -> None:
+        plan = self.document.plan
+        if plan is None or not drones:
+            return
+        points = plan.trajectory.evaluate([self.document.time])[0][list(drones)]
+        self.centre.setCurrentWidget(self.site)
+        self.site.frame_points(points, margin=2.0)
+
+    def _show_error(self, text: str) -> None:
+        box = QMessageBox(QMessageBox.Icon.Warning, "Skyloom", text.split("\n")[0][:200], parent=self)
+        box.setDetailedText(text) if "\n" in text else None
+        box.setInformativeText("\n".join(text.split("\n")[1:8]))
+        box.setModal(False)
+        box.show()
+        self.last_error = text
+
+    def _update_title(self, *_args) -> None:
+        name = self.document.path.name if self.document.path else self.document.scene.name
+        dirty = "" if self.document.undo_stack.isClean() else " *"
+        self.setWindowTitle(f"Skyloom designer — {name}{dirty}")
+
+    def closeEvent(self, event):  # noqa: N802 - Qt's name
+        if self.runner.running:
+            self.runner.cancel()
+            self.runner.wait()
+        super().closeEvent(event)

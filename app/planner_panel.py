@@ -1,0 +1,76 @@
+"""Planner settings: roadmap density, stretch, suboptimality, search time, smoothing on/off,
+rounds and objective, and worker processes (a machine setting, not stored in the scene)."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QSpinBox, QWidget
+
+from core.smoothing.terms import OBJECTIVES
+
+from .document import Document
+
+
+class PlannerPanel(QWidget):
+    """A form bound to ``scene.planner``; each change is one undo step."""
+
+    def __init__(self, document: Document, parent=None):
+        super().__init__(parent)
+        self.document = document
+        self.samples = QSpinBox(minimum=50, maximum=200_000, singleStep=250)
+        self.stretch = QDoubleSpinBox(minimum=1.0, maximum=10.0, singleStep=0.1, decimals=2)
+        self.suboptimality = QDoubleSpinBox(minimum=1.0, maximum=10.0, singleStep=0.1, decimals=2)
+        self.time_limit = QDoubleSpinBox(minimum=1.0, maximum=3600.0, singleStep=10.0, suffix=" s")
+        self.smoothing = QCheckBox("smooth roadmap plans")
+        self.iterations = QSpinBox(minimum=1, maximum=50)
+        self.objective = QComboBox(editable=True)
+        self.objective.addItems(list(OBJECTIVES))
+        self.degree = QSpinBox(minimum=5, maximum=15)
+        self.workers = QSpinBox(minimum=0, maximum=256, specialValueText="all CPUs")
+        form = QFormLayout(self)
+        form.addRow("roadmap samples", self.samples)
+        form.addRow("spanner stretch", self.stretch)
+        form.addRow("suboptimality w", self.suboptimality)
+        form.addRow("search time limit", self.time_limit)
+        form.addRow(self.smoothing)
+        form.addRow("smoothing rounds", self.iterations)
+        form.addRow("objective", self.objective)
+        form.addRow("Bézier degree", self.degree)
+        form.addRow("worker processes", self.workers)
+        self._fields = {"roadmap_samples": self.samples, "spanner_stretch": self.stretch,
+                        "suboptimality": self.suboptimality, "search_time_limit": self.time_limit,
+                        "smoothing_iterations": self.iterations, "degree": self.degree}
+        for w in self._fields.values():
+            w.editingFinished.connect(self._commit)
+        self.smoothing.toggled.connect(self._commit)
+        self.objective.activated.connect(self._commit)
+        self.objective.lineEdit().editingFinished.connect(self._commit)
+        self.workers.valueChanged.connect(lambda v: setattr(document, "workers", v or None))
+        document.scene_changed.connect(self.refresh)
+        self.refresh()
+
+    def refresh(self) -> None:
+        s = self.document.scene.planner
+        for name, w in self._fields.items():
+            w.blockSignals(True)
+            w.setValue(getattr(s, name))
+            w.blockSignals(False)
+        self.smoothing.blockSignals(True)
+        self.smoothing.setChecked(s.smoothing)
+        self.smoothing.blockSignals(False)
+        self.objective.blockSignals(True)
+        self.objective.setCurrentText(s.objective)
+        self.objective.blockSignals(False)
+
+    def _commit(self, *_args) -> None:
+        scene = self.document.scene
+        changes = {name: w.value() for name, w in self._fields.items()}
+        changes.update(smoothing=self.smoothing.isChecked(), objective=self.objective.currentText().strip())
+        try:
+            planner = replace(scene.planner, **changes)
+        except ValueError as exc:  # pydantic's ValidationError is a ValueError
+            self.document.message.emit(f"planner settings: {exc}")
+            self.refresh()
+            return
+        self.document.edit(replace(scene, planner=planner), "planner settings")

@@ -1,0 +1,136 @@
+"""The 3D site: obstacle meshes, flight volume, keep-out boxes, formation points, planned curves
+(one line item for the whole fleet), drones at the current time, and the selected drones'
+clearance ellipsoids."""
+
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph.opengl as gl
+from PySide6.QtGui import QVector3D
+
+from core.inspection import sample_times
+
+from . import palette
+from .document import Document
+
+#: Curve samples per piece (polyline vertices).
+CURVE_SAMPLES = 16
+
+
+def box_edges(bounds: np.ndarray) -> np.ndarray:
+    """``(24, 3)`` segment end points of the 12 edges of a box ``(2, 3)``."""
+    lo, hi = bounds
+    corners = np.array([[x, y, z] for x in (lo[0], hi[0]) for y in (lo[1], hi[1]) for z in (lo[2], hi[2])])
+    pairs = [(0, 1), (0, 2), (0, 4), (1, 3), (1, 5), (2, 3), (2, 6), (3, 7), (4, 5), (4, 6), (5, 7), (6, 7)]
+    return corners[np.array(pairs).ravel()]
+
+
+class SiteView(gl.GLViewWidget):
+    """3D view bound to a :class:`Document`."""
+
+    def __init__(self, document: Document, parent=None):
+        super().__init__(parent)
+        self.document = document
+        self.setBackgroundColor(tuple(int(255 * c) for c in palette.BACKGROUND[:3]))
+        self._mesh_items: list[gl.GLMeshItem] = []
+        self._box_items: list[gl.GLMeshItem] = []
+        self._volume = gl.GLLinePlotItem(mode="lines", color=palette.VOLUME, width=1.0, antialias=True)
+        self._curves = gl.GLLinePlotItem(mode="lines", width=1.5, antialias=True)
+        self._formation = gl.GLScatterPlotItem(size=6.0, color=palette.FORMATION, pxMode=True)
+        self._drones = gl.GLScatterPlotItem(size=9.0, pxMode=True)
+        self._ellipsoids: list[gl.GLMeshItem] = []
+        self._sphere = gl.MeshData.sphere(rows=12, cols=18)
+        for item in (self._volume, self._curves, self._formation, self._drones):
+            self.addItem(item)
+        self.shown_formation: str | None = None
+        self._colours = np.zeros((0, 4))
+        document.scene_changed.connect(self.refresh_scene)
+        document.plan_changed.connect(self.refresh_plan)
+        document.time_changed.connect(self.refresh_time)
+        document.selection_changed.connect(self.refresh_time)
+        self.refresh_scene()
+        self.frame_all()
+
+    # --- scene -------------------------------------------------------------------------------
+    def refresh_scene(self) -> None:
+        scene = self.document.scene
+        self._volume.setData(pos=box_edges(scene.site.flight_volume.bounds))
+        for item in self._mesh_items + self._box_items:
+            self.removeItem(item)
+        self._mesh_items = [
+            gl.GLMeshItem(vertexes=np.asarray(m.mesh.vertices, dtype=np.float32), faces=np.asarray(m.mesh.faces),
+                          smooth=False, shader="shaded", color=palette.OBSTACLE, glOptions="opaque")
+            for m in self.document.meshes()]
+        self._box_items = [self._box_item(b.bounds) for b in scene.site.keep_out]
+        for item in self._mesh_items + self._box_items:
+            self.addItem(item)
+        self.show_formation(self.shown_formation)
+
+    def show_formation(self, name: str | None) -> None:
+        """Draw formation ``name``'s points (the first formation when None)."""
+        formations = self.document.scene.formations
+        f = self.document.formation(name) if name else None
+        f = f or formations[0]
+        self.shown_formation = f.name
+        self._formation.setData(pos=f.positions, color=palette.FORMATION)
+
+    def _box_item(self, bounds: np.ndarray) -> gl.GLMeshItem:
+        mesh = gl.MeshData.cylinder(rows=1, cols=4, radius=[0.5 * np.sqrt(2)] * 2, length=1.0)
+        v = mesh.vertexes()
+        rotated = np.c_[(v[:, 0] - v[:, 1]) / np.sqrt(2), (v[:, 0] + v[:, 1]) / np.sqrt(2), v[:, 2]]
+        size = bounds[1] - bounds[0]
+        mesh.setVertexes((np.array([0.5, 0.5, 0.0]) + rotated) * size + bounds[0])
+        return gl.GLMeshItem(meshdata=mesh, color=palette.KEEP_OUT, shader="shaded", glOptions="translucent")
+
+    # --- plan --------------------------------------------------------------------------------
+    def refresh_plan(self) -> None:
+        plan = self.document.plan
+        if plan is None:
+            self._curves.setData(pos=np.zeros((0, 3)))
+            self._drones.setData(pos=np.zeros((0, 3)))
+            return
+        traj = plan.trajectory
+        self._colours = palette.drone_colours(traj.n_drones)
+        times = sample_times(traj, CURVE_SAMPLES)
+        points = np.swapaxes(traj.evaluate(times), 0, 1)  # (N, T, 3)
+        n, t = points.shape[:2]
+        segments = np.stack([points[:, :-1], points[:, 1:]], axis=2).reshape(-1, 3)
+        colours = np.repeat(self._colours, 2 * (t - 1), axis=0)
+        colours[:, 3] = 0.8
+        self._curves.setData(pos=segments.astype(np.float32), color=colours.astype(np.float32))
+        self.refresh_time()
+
+    def refresh_time(self, *_args) -> None:
+        plan = self.document.plan
+        for item in self._ellipsoids:
+            self.removeItem(item)
+        self._ellipsoids = []
+        if plan is None:
+            return
+        traj = plan.trajectory
+        positions = traj.evaluate(np.array([self.document.time]))[0]
+        colours = self._colours.copy()
+        sizes = np.full(traj.n_drones, 9.0)
+        chosen = list(self.document.selected)
+        colours[chosen] = palette.SELECTED
+        sizes[chosen] = 15.0
+        self._drones.setData(pos=positions, color=colours, size=sizes)
+        semi = plan.scene.fleet.semi_axes
+        for k in chosen[:8]:
+            item = gl.GLMeshItem(meshdata=self._sphere, smooth=True, shader="balloon", color=palette.ELLIPSOID,
+                                 glOptions="translucent")
+            item.scale(*semi[k])
+            item.translate(*positions[k])
+            self.addItem(item)
+            self._ellipsoids.append(item)
+
+    # --- camera ------------------------------------------------------------------------------
+    def frame_points(self, points: np.ndarray, margin: float = 1.5) -> None:
+        """Point the camera at ``points`` ``(M, 3)`` and back off so they fit."""
+        points = np.atleast_2d(points)
+        centre = points.mean(axis=0)
+        extent = max(float(np.linalg.norm(points - centre, axis=1).max()), 1.0)
+        self.setCameraPosition(pos=QVector3D(*centre), distance=margin * 3.0 * extent)
+
+    def frame_all(self) -> None:
+        self.frame_points(self.document.scene.site.flight_volume.bounds, margin=0.9)

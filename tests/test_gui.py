@@ -1,0 +1,273 @@
+"""The designer, driven like a user (pytest-qt). Views without OpenGL run on any Qt platform; the
+window with the 3D view needs an X server with OpenGL (CI: xvfb-run with Mesa)."""
+
+import os
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PySide6.QtCore import QPointF, QSettings, Qt
+from scipy.spatial import cKDTree
+
+from conftest import HAS_OPENGL, ROOT
+from core.scene import load_scene
+
+SAMPLES = ROOT / "sample_scenes"
+needs_opengl = pytest.mark.skipif(not HAS_OPENGL, reason="needs an X server with OpenGL (run under xvfb-run)")
+
+
+@pytest.fixture
+def settings(tmp_path):
+    return QSettings(str(tmp_path / "designer.ini"), QSettings.Format.IniFormat)
+
+
+@pytest.fixture
+def document(settings):
+    from app.document import Document
+    path = SAMPLES / "lab_eight.json"
+    doc = Document(load_scene(path), path, settings)
+    doc.workers = 1
+    return doc
+
+
+def _click_view(qtbot, plot, x, y, modifier=Qt.KeyboardModifier.NoModifier):
+    """Hover, then click at view coordinates (x, y) m (the first hover may still re-lay out the axes)."""
+    for _ in range(2):
+        pixel = plot.mapFromScene(plot.box.mapViewToScene(QPointF(x, y)))
+        qtbot.mouseMove(plot.viewport(), pixel)
+        qtbot.wait(30)
+    qtbot.mouseClick(plot.viewport(), Qt.MouseButton.LeftButton, modifier, pixel)
+
+
+def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, document):
+    from app.layout_view import LayoutView
+    view = LayoutView(document)
+    qtbot.addWidget(view)
+    view.resize(900, 700)
+    view.show()
+    qtbot.waitExposed(view)
+    view.altitude.setValue(3.0)
+    view.grid.setValue(0.5)
+    before = document.formation(document.active_formation).positions.copy()
+    _click_view(qtbot, view.top, 3.1, -2.2)
+    after = document.formation(document.active_formation).positions
+    assert len(after) == len(before) + 1
+    assert np.allclose(after[-1], [3.0, -2.0, 3.0])  # snapped to the 0.5 m grid, at the altitude
+    document.undo_stack.undo()
+    assert np.array_equal(document.formation(document.active_formation).positions, before)
+    document.undo_stack.redo()
+    assert len(document.formation(document.active_formation).positions) == len(before) + 1
+
+
+def test_selecting_a_point_and_pressing_delete_removes_it(qtbot, document):
+    from app.layout_view import LayoutView
+    view = LayoutView(document)
+    qtbot.addWidget(view)
+    view.resize(900, 700)
+    view.show()
+    qtbot.waitExposed(view)
+    points = document.formation(document.active_formation).positions
+    _click_view(qtbot, view.top, *points[2, :2])
+    assert view.selected == {2}
+    qtbot.keyClick(view, Qt.Key.Key_Delete)
+    remaining = document.formation(document.active_formation).positions
+    assert len(remaining) == len(points) - 1 and not np.any(np.all(remaining == points[2], axis=1))
+    document.undo_stack.undo()
+    assert len(document.formation(document.active_formation).positions) == len(points)
+
+
+def test_points_closer_than_the_clearance_are_flagged(qtbot, document):
+    from app.layout_view import LayoutView, too_close
+    view = LayoutView(document)
+    qtbot.addWidget(view)
+    f = document.formation(document.active_formation)
+    pair = 2.0 * document.scene.fleet.semi_axes.max(axis=0)
+    crowded = f.positions.copy()
+    crowded[1] = crowded[0] + [0.9 * pair[0], 0.0, 0.0]
+    document.edit_formation(f.name, crowded, f.groups, "crowd")
+    assert too_close(crowded, pair)[[0, 1]].all() and "closer than the clearance" in view.status.text()
+
+
+def test_generators_make_the_expected_count_and_spacing(qtbot, document):
+    from app.formation_panel import FormationPanel
+    panel = FormationPanel(document)
+    qtbot.addWidget(panel)
+    g = panel.generator
+    g.kind.setCurrentText("grid")
+    g.count.setValue(12)
+    g.grid_spacing.setValue(2.5)
+    qtbot.mouseClick(g.apply, Qt.MouseButton.LeftButton)
+    pts = document.formation(document.active_formation).positions
+    assert len(pts) == 12
+    assert np.allclose(cKDTree(pts).query(pts, k=2)[0][:, 1], 2.5)
+    g.kind.setCurrentText("ring")
+    g.count.setValue(10)
+    g.ring_radius.setValue(6.0)
+    for w, v in zip(g.centre, (1.0, 2.0, 4.0), strict=True):
+        w.setValue(v)
+    qtbot.mouseClick(g.apply, Qt.MouseButton.LeftButton)
+    pts = document.formation(document.active_formation).positions
+    assert len(pts) == 10 and np.allclose(np.linalg.norm(pts[:, :2] - [1.0, 2.0], axis=1), 6.0)
+    # chord of a regular 10-gon: 2 r sin(π / 10)
+    assert np.allclose(cKDTree(pts).query(pts, k=2)[0][:, 1], 2 * 6.0 * np.sin(np.pi / 10))
+    panel.load_csv(SAMPLES / "cube.csv")
+    assert len(document.formation(document.active_formation).positions) == 8
+    document.undo_stack.undo()
+    assert len(document.formation(document.active_formation).positions) == 10
+
+
+def test_timeline_fleet_and_planner_edits_are_undoable_and_saved(qtbot, document, tmp_path):
+    from app.fleet_panel import FleetPanel
+    from app.planner_panel import PlannerPanel
+    from app.timeline_panel import TimelinePanel
+    timeline, fleet, planner = TimelinePanel(document), FleetPanel(document), PlannerPanel(document)
+    for w in (timeline, fleet, planner):
+        qtbot.addWidget(w)
+    hold = timeline.table.cellWidget(0, 3)
+    hold.setValue(4.0)
+    hold.editingFinished.emit()
+    assert document.scene.timeline.transitions[0].hold == 4.0
+    radius = fleet.table.cellWidget(0, 1)
+    radius.setValue(0.42)
+    radius.editingFinished.emit()
+    assert document.scene.fleet.types[0].radius_z == pytest.approx(0.42)
+    planner.iterations.setValue(5)
+    planner.iterations.editingFinished.emit()
+    assert document.scene.planner.smoothing_iterations == 5
+    planner.objective.setCurrentText("bogus")
+    planner.objective.lineEdit().editingFinished.emit()
+    assert document.scene.planner.objective == "snap"  # refused with a message, nothing lost
+    document.save(tmp_path / "edited.json")
+    again = load_scene(tmp_path / "edited.json")
+    assert again.planner.smoothing_iterations == 5 and again.timeline.transitions[0].hold == 4.0
+    assert str((tmp_path / "edited.json").resolve()) in document.recent_files()
+    for _ in range(3):
+        document.undo_stack.undo()
+    assert document.scene == load_scene(SAMPLES / "lab_eight.json")
+
+
+def test_a_malformed_scene_is_reported_and_the_open_one_kept(qtbot, document, tmp_path):
+    from core.errors import SceneError
+    bad = tmp_path / "bad.json"
+    bad.write_text('{"format": "skyloom-scene", "version": 1, "name": "x"')
+    before = document.scene
+    with pytest.raises(SceneError, match="bad.json: line 1"):
+        document.open(bad)
+    assert document.scene is before
+
+
+# --- the whole window (OpenGL) -------------------------------------------------------------
+
+@pytest.fixture
+def make_window(qtbot, settings):
+    """Designer windows on sample scenes (planning in this process: workers = 1)."""
+    from app.document import Document
+    from app.main_window import MainWindow
+    made = []
+
+    def make(name="bridge_inspection.json"):
+        path = SAMPLES / name
+        doc = Document(load_scene(path), path, settings)
+        doc.workers = 1
+        w = MainWindow(doc)
+        qtbot.addWidget(w)
+        w.show()
+        qtbot.waitExposed(w)
+        made.append(w)
+        return w
+
+    yield make
+    for w in made:
+        if w.runner.running:
+            w.runner.cancel()
+            w.runner.wait()
+
+
+
+@pytest.fixture
+def window(make_window):
+    return make_window()
+
+
+def _plan(qtbot, window, timeout=120_000):
+    window.start_plan()
+    qtbot.waitUntil(lambda: not window.runner.running, timeout=timeout)
+
+
+@needs_opengl
+def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, make_window):
+    window = make_window("lab_eight.json")
+    _plan(qtbot, window)
+    doc = window.document
+    assert doc.plan is not None and doc.plan.verified, getattr(window, "last_error", "")
+    assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.text()
+    table = window.findings.table
+    assert table.rowCount() > 0 and "PASSED" in window.findings.summary.text()
+    row = table.rowCount() - 1
+    rect = table.visualItemRect(table.item(row, 0))
+    window.findings.show()
+    qtbot.mouseClick(table.viewport(), Qt.MouseButton.LeftButton, pos=rect.center())
+    finding = window.findings.rows[row]
+    assert doc.time == pytest.approx(finding.time) and doc.selected == tuple(sorted(finding.drones))
+    assert window.time_bar.slider.value() == round(finding.time * 100)
+    assert len(window.site._ellipsoids) == 2  # the pair's clearance ellipsoids are drawn
+
+
+@needs_opengl
+def test_screenshot_of_a_planned_scene_is_not_blank(qtbot, window, tmp_path):
+    _plan(qtbot, window)
+    window.document.set_time(14.0)
+    window.document.select((0, 1))
+    qtbot.wait(200)
+    shot = window.grab()
+    folder = Path(os.environ.get("SKYLOOM_SCREENSHOT_DIR", tmp_path))
+    folder.mkdir(parents=True, exist_ok=True)
+    assert shot.save(str(folder / "designer_bridge.png"))
+    frame = window.site.grabFramebuffer()
+    pixels = np.frombuffer(frame.constBits(), dtype=np.uint8).reshape(frame.height(), frame.bytesPerLine())
+    rgb = pixels[:, : 4 * frame.width()].reshape(frame.height(), frame.width(), 4)[..., :3]
+    background = np.array([int(255 * c) for c in (0.09, 0.10, 0.12)])
+    drawn = np.abs(rgb.astype(int) - background[::-1]).sum(axis=2) > 30  # BGRA in memory
+    assert drawn.mean() > 0.03  # mesh, curves and volume cover a good part of the view
+    assert len(np.unique(rgb.reshape(-1, 3), axis=0)) > 50
+
+
+@needs_opengl
+def test_cancel_stops_a_long_plan_and_keeps_the_old_one(qtbot, window):
+    _plan(qtbot, window)
+    old = window.document.plan
+    from dataclasses import replace
+    scene = window.document.scene
+    window.document.edit(replace(scene, planner=replace(scene.planner, roadmap_samples=150_000)), "dense roadmap")
+    stages = []
+    window.runner.progress.connect(lambda stage, *_: stages.append(stage))
+    window.start_plan()
+    qtbot.waitUntil(lambda: "roadmap" in stages, timeout=60_000)
+    started = time.perf_counter()
+    qtbot.mouseClick(window.cancel_button, Qt.MouseButton.LeftButton)
+    qtbot.waitUntil(lambda: not window.runner.running, timeout=60_000)
+    assert time.perf_counter() - started < 30
+    assert window.document.plan is old and "cancelled" in window.stage.text()
+    assert window.plan_button.isEnabled() and not window.cancel_button.isEnabled()
+
+
+@needs_opengl
+def test_export_shows_the_caution_and_writes_through_the_core_exporter(qtbot, window, tmp_path):
+    from app.export_dialog import ExportDialog
+    from core import SAFETY_CAUTION
+    _plan(qtbot, window)
+    dialog = ExportDialog(window.document.plan, tmp_path / "out")
+    qtbot.addWidget(dialog)
+    assert SAFETY_CAUTION in dialog.caution.text() and "PASSED" in dialog.status.text()
+    assert not dialog.save_button.isEnabled()
+    dialog.understood.setChecked(True)
+    assert dialog.save_button.isEnabled()
+    folder = dialog.write()
+    assert (folder / "plan.json").exists() and "VERIFIED" in (folder / "report.txt").read_text()
+
+
+def test_gui_command_reports_a_missing_scene_without_a_traceback(capsys):
+    from core.cli import main
+    assert main(["gui", "no/such/scene.json"]) == 2
+    assert "cannot read the file" in capsys.readouterr().err
