@@ -103,7 +103,7 @@ class MainWindow(QMainWindow):
         document.formation_chosen.connect(self.site.show_formation)
         self._update_title()
         self.resize(1500, 950)
-        self.resizeDocks([inspect], [330], Qt.Orientation.Vertical)
+        self.resizeDocks([inspect], [420], Qt.Orientation.Vertical)
 
     def _dock(self, widget: QWidget, title: str, area) -> QDockWidget:
         dock = QDockWidget(title, self)

@@ -39,6 +39,9 @@ class MotionPlots(QWidget):
             plot.addItem(cursor)
             self.plots.append(plot)
             self.cursors.append(cursor)
+        for plot in self.plots[:-1]:  # one time axis, at the bottom
+            plot.getAxis("bottom").setStyle(showValues=False)
+            plot.getAxis("bottom").setHeight(4)
         self.plots[-1].setLabel("bottom", "time", units="s")
         QVBoxLayout(self).addWidget(self.layout_widget)
         document.plan_changed.connect(self.refresh)

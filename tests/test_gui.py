@@ -40,13 +40,20 @@ def _click_view(qtbot, plot, x, y, modifier=Qt.KeyboardModifier.NoModifier):
     qtbot.mouseClick(plot.viewport(), Qt.MouseButton.LeftButton, modifier, pixel)
 
 
-def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, document):
+@pytest.fixture
+def layout(qtbot, document):
+    """The formation layout view, shown (clicks need an exposed widget)."""
     from app.layout_view import LayoutView
     view = LayoutView(document)
     qtbot.addWidget(view)
     view.resize(900, 700)
     view.show()
     qtbot.waitExposed(view)
+    return view
+
+
+def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, document, layout):
+    view = layout
     view.altitude.setValue(3.0)
     view.grid.setValue(0.5)
     before = document.formation(document.active_formation).positions.copy()
@@ -60,13 +67,8 @@ def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, doc
     assert len(document.formation(document.active_formation).positions) == len(before) + 1
 
 
-def test_selecting_a_point_and_pressing_delete_removes_it(qtbot, document):
-    from app.layout_view import LayoutView
-    view = LayoutView(document)
-    qtbot.addWidget(view)
-    view.resize(900, 700)
-    view.show()
-    qtbot.waitExposed(view)
+def test_selecting_a_point_and_pressing_delete_removes_it(qtbot, document, layout):
+    view = layout
     points = document.formation(document.active_formation).positions
     _click_view(qtbot, view.top, *points[2, :2])
     assert view.selected == {2}
