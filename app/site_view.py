@@ -36,8 +36,8 @@ class SiteView(gl.GLViewWidget):
         self._box_items: list[gl.GLMeshItem] = []
         self._volume = gl.GLLinePlotItem(mode="lines", color=palette.VOLUME, width=1.0, antialias=True)
         self._curves = gl.GLLinePlotItem(mode="lines", width=1.5, antialias=True)
-        self._formation = gl.GLScatterPlotItem(size=6.0, color=palette.FORMATION, pxMode=True)
-        self._drones = gl.GLScatterPlotItem(size=9.0, pxMode=True)
+        self._formation = gl.GLScatterPlotItem(size=6.0, color=palette.FORMATION, pxMode=True, glOptions="translucent")
+        self._drones = gl.GLScatterPlotItem(size=9.0, pxMode=True, glOptions="translucent")  # not additive: keeps hues
         self._ellipsoids: list[gl.GLMeshItem] = []
         self._sphere = gl.MeshData.sphere(rows=12, cols=18)
         for item in (self._volume, self._curves, self._formation, self._drones):

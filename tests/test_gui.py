@@ -273,3 +273,48 @@ def test_gui_command_reports_a_missing_scene_without_a_traceback(capsys):
     from core.cli import main
     assert main(["gui", "no/such/scene.json"]) == 2
     assert "cannot read the file" in capsys.readouterr().err
+
+
+def _send_mouse(widget, kind, pixel, button, buttons):
+    from PySide6.QtGui import QMouseEvent
+    from PySide6.QtWidgets import QApplication
+    local = QPointF(pixel)
+    QApplication.sendEvent(widget, QMouseEvent(kind, local, local, QPointF(widget.mapToGlobal(pixel)), button,
+                                               buttons, Qt.KeyboardModifier.NoModifier))
+
+
+def test_dragging_a_point_moves_it_as_one_undo_step(qtbot, document, layout):
+    from PySide6.QtCore import QEvent
+    f = document.formation(document.active_formation)
+    start, target = f.positions[3], f.positions[3] + [1.0, 1.8, 0.0]  # ends 0.2 m from a grid line
+    plot, vp = layout.top, layout.top.viewport()
+    _click_view(qtbot, plot, *start[:2])  # selects it (and settles the axes)
+    before = document.formation(f.name).positions.copy()
+    steps_before = document.undo_stack.count()
+
+    def pixel(p):
+        return plot.mapFromScene(plot.box.mapViewToScene(QPointF(*p[:2])))
+
+    left, none = Qt.MouseButton.LeftButton, Qt.MouseButton.NoButton
+    _send_mouse(vp, QEvent.Type.MouseButtonPress, pixel(start), left, left)
+    for s in np.linspace(0.1, 1.0, 8):
+        qtbot.wait(30)  # pyqtgraph rate-limits move events
+        _send_mouse(vp, QEvent.Type.MouseMove, pixel(start + s * (target - start)), none, left)
+    _send_mouse(vp, QEvent.Type.MouseButtonRelease, pixel(target), left, none)
+    moved = document.formation(f.name).positions
+    assert np.allclose(moved[3], [round(t) for t in target[:2]] + [start[2]])  # snapped to the 1 m grid
+    assert np.array_equal(np.delete(moved, 3, axis=0), np.delete(before, 3, axis=0))
+    assert document.undo_stack.count() == steps_before + 1  # the whole drag is one step
+    document.undo_stack.undo()
+    assert np.array_equal(document.formation(f.name).positions, before)
+
+
+@needs_opengl
+def test_play_advances_the_time_cursor(qtbot, make_window):
+    window = make_window("lab_eight.json")
+    _plan(qtbot, window)
+    window.time_bar.speed.setCurrentText("10×")
+    qtbot.mouseClick(window.time_bar.play_button, Qt.MouseButton.LeftButton)
+    qtbot.waitUntil(lambda: window.document.time > 1.0, timeout=5000)
+    qtbot.mouseClick(window.time_bar.play_button, Qt.MouseButton.LeftButton)
+    assert not window.time_bar.timer.isActive()
