@@ -175,6 +175,3 @@ class Document(QObject):
         if drones != self.selected:
             self.selected = drones
             self.selection_changed.emit()
-
-    def drone_index(self, drone_id: str) -> int:
-        return self.scene.fleet.ids.index(drone_id)

@@ -102,8 +102,6 @@ def _plan(args) -> int:
                   progress=progress, workers=args.workers)
     if isinstance(progress, TerminalProgress):
         progress.close()
-    for warning in result.stats.get("mesh_warnings", []):
-        print(f"warning: {warning}")
     print("\n".join(plan_summary_lines(result)))
     print("\n".join(result.report.summary_lines()))
     if not result.report.ok:

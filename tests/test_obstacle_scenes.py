@@ -9,6 +9,7 @@ import trimesh
 from conftest import ROOT, scene_dict
 from core.cli import main
 from core.errors import PlanningError, SceneError
+from core.executors import InlineExecutor
 from core.export import export_plan
 from core.pipeline import plan
 from core.scene import load_scene, scene_from_dict
@@ -140,3 +141,20 @@ def test_cli_plans_the_bridge_and_prints_search_figures(tmp_path, capsys):
                  "--quiet"]) == 0
     text = capsys.readouterr().out
     assert "nodes expanded" in text and "roadmap:" in text and "Verification PASSED" in text
+
+
+def test_open_mesh_warning_reaches_the_report(tmp_path):
+    wall = trimesh.creation.box(extents=(20.0, 1.0, 4.0), transform=trimesh.transformations.translation_matrix(
+        (0.0, 0.0, 4.0)))
+    open_wall = trimesh.Trimesh(wall.vertices, wall.faces[:-1], process=False)  # one triangle missing
+    assert not open_wall.is_watertight
+    open_wall.export(tmp_path / "wall.stl")
+    f = {"a": np.array([[-2.0, -4.0, 2.0], [2.0, -4.0, 2.0]]), "b": np.array([[-2.0, 4.0, 2.0], [2.0, 4.0, 2.0]])}
+    data = scene_dict(f, [{"to": "b", "assignment": "labeled"}])
+    data["site"] = {"flight_volume": {"lower": [-8.0, -8.0, 0.0], "upper": [8.0, 8.0, 8.0]},
+                    "meshes": [{"name": "wall", "file": "wall.stl"}]}
+    result = plan(scene_from_dict(data, base_dir=tmp_path), base_dir=tmp_path, executor=InlineExecutor())
+    assert result.verified
+    out = export_plan(result, tmp_path / "out")
+    report = (out / "report.txt").read_text()
+    assert "warning: mesh 'wall'" in report and "watertight" in report
