@@ -155,10 +155,12 @@ class Document(QObject):
         self.scene_changed.emit()
 
     # --- plan, time, selection ---------------------------------------------------------------
-    def set_plan(self, result: PlanResult) -> None:
-        """Show ``result`` (the previous plan is replaced only here, after a plan succeeded)."""
+    def set_plan(self, result: PlanResult, approaches: list[Approach] | None = None) -> None:
+        """Show ``result`` and its close ``approaches`` (sampled now if not given); the previous
+        plan is replaced only here, after a plan succeeded."""
         self.plan = result
-        self.approaches = closest_approaches(result.trajectory, result.scene.fleet.semi_axes)
+        self.approaches = approaches if approaches is not None else \
+            closest_approaches(result.trajectory, result.scene.fleet.semi_axes)
         self.time = min(self.time, result.trajectory.duration)
         self.plan_changed.emit()
         self.time_changed.emit(self.time)

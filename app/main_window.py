@@ -137,6 +137,8 @@ class MainWindow(QMainWindow):
         self._action(plan_menu, "&Cancel planning", self.runner.cancel, "Esc")
         view = self.menuBar().addMenu("&View")
         self._action(view, "Frame the &site", self.site.frame_all, "Home")
+        only = self._action(view, "&Curves of the selected drones only", self.site.show_selected_curves_only)
+        only.setCheckable(True)
         help_menu = self.menuBar().addMenu("&Help")
         self._action(help_menu, "&Safety", lambda: QMessageBox.information(self, "Safety", SAFETY_CAUTION))
 

@@ -6,6 +6,7 @@ from __future__ import annotations
 from PySide6.QtCore import QObject, QThread, Signal
 
 from core.errors import Cancelled, SkyloomError
+from core.inspection import closest_approaches
 from core.pipeline import PlanResult, plan
 from core.progress import CancelToken
 from core.scene import Scene
@@ -15,7 +16,7 @@ from .document import Document
 
 class _PlanJob(QObject):
     progress = Signal(str, float, str)
-    finished = Signal(object)  # PlanResult
+    finished = Signal(object, object)  # PlanResult, its close approaches
     failed = Signal(str)
     cancelled = Signal()
 
@@ -33,8 +34,8 @@ class _PlanJob(QObject):
             self.failed.emit(str(exc))
         except Exception as exc:  # noqa: BLE001 - shown as a readable message, never a traceback
             self.failed.emit(f"unexpected error ({type(exc).__name__}): {exc}. Please report it with the scene file.")
-        else:
-            self.finished.emit(result)
+        else:  # the close approaches are sampled here too, off the GUI thread
+            self.finished.emit(result, closest_approaches(result.trajectory, result.scene.fleet.semi_axes))
 
 
 class PlanRunner(QObject):
@@ -85,8 +86,8 @@ class PlanRunner(QObject):
         if self._thread is not None:
             self._thread.wait(ms)
 
-    def _finished(self, result: PlanResult) -> None:
-        self.document.set_plan(result)
+    def _finished(self, result: PlanResult, approaches: list) -> None:
+        self.document.set_plan(result, approaches)
         verdict = "verified" if result.verified else f"FAILED verification ({len(result.report.violations)} problems)"
         self._end(f"planned {result.trajectory.n_drones} drones, {result.trajectory.duration:.1f} s — {verdict}")
 

@@ -43,11 +43,12 @@ class SiteView(gl.GLViewWidget):
         for item in (self._volume, self._curves, self._formation, self._drones):
             self.addItem(item)
         self.shown_formation: str | None = None
+        self.selected_curves_only = False
         self._colours = np.zeros((0, 4))
         document.scene_changed.connect(self.refresh_scene)
         document.plan_changed.connect(self.refresh_plan)
         document.time_changed.connect(self.refresh_time)
-        document.selection_changed.connect(self.refresh_time)
+        document.selection_changed.connect(self._selection_changed)
         self.refresh_scene()
         self.frame_all()
 
@@ -91,11 +92,13 @@ class SiteView(gl.GLViewWidget):
             return
         traj = plan.trajectory
         self._colours = palette.drone_colours(traj.n_drones)
+        shown = np.array(self.document.selected, dtype=int) if self.selected_curves_only and self.document.selected \
+            else np.arange(traj.n_drones)
         times = sample_times(traj, CURVE_SAMPLES)
-        points = np.swapaxes(traj.evaluate(times), 0, 1)  # (N, T, 3)
-        n, t = points.shape[:2]
+        points = np.swapaxes(traj.evaluate(times)[:, shown], 0, 1)  # (shown, T, 3)
+        t = points.shape[1]
         segments = np.stack([points[:, :-1], points[:, 1:]], axis=2).reshape(-1, 3)
-        colours = np.repeat(self._colours, 2 * (t - 1), axis=0)
+        colours = np.repeat(self._colours[shown], 2 * (t - 1), axis=0)
         colours[:, 3] = 0.8
         self._curves.setData(pos=segments.astype(np.float32), color=colours.astype(np.float32))
         self.refresh_time()
@@ -123,6 +126,17 @@ class SiteView(gl.GLViewWidget):
             item.translate(*positions[k])
             self.addItem(item)
             self._ellipsoids.append(item)
+
+    def show_selected_curves_only(self, on: bool) -> None:
+        """Draw every drone's curve, or (when ``on`` and drones are selected) only theirs."""
+        self.selected_curves_only = bool(on)
+        self.refresh_plan()
+
+    def _selection_changed(self) -> None:
+        if self.selected_curves_only:
+            self.refresh_plan()
+        else:
+            self.refresh_time()
 
     # --- camera ------------------------------------------------------------------------------
     def frame_points(self, points: np.ndarray, margin: float = 1.5) -> None:

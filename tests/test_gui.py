@@ -214,6 +214,9 @@ def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, m
     assert doc.time == pytest.approx(finding.time) and doc.selected == tuple(sorted(finding.drones))
     assert window.time_bar.slider.value() == round(finding.time * 100)
     assert len(window.site._ellipsoids) == 2  # the pair's clearance ellipsoids are drawn
+    all_vertices = len(window.site._curves.pos)
+    window.site.show_selected_curves_only(True)
+    assert len(window.site._curves.pos) * doc.plan.trajectory.n_drones == all_vertices * 2
 
 
 @needs_opengl
@@ -318,3 +321,25 @@ def test_play_advances_the_time_cursor(qtbot, make_window):
     qtbot.waitUntil(lambda: window.document.time > 1.0, timeout=5000)
     qtbot.mouseClick(window.time_bar.play_button, Qt.MouseButton.LeftButton)
     assert not window.time_bar.timer.isActive()
+
+
+def test_planning_errors_are_readable_messages(qtbot, document):
+    from dataclasses import replace
+
+    from app.plan_runner import PlanRunner
+    runner = PlanRunner(document)
+    messages = []
+    runner.failed.connect(messages.append)
+    f = document.formation(document.active_formation)
+    document.edit_formation(f.name, f.positions[:-1], None, "drop a point")
+    assert runner.start() is False
+    assert "cannot be planned yet" in messages[-1] and "points" in messages[-1]
+    document.undo_stack.undo()
+    scene = document.scene
+    short = replace(scene.timeline, transitions=(replace(scene.timeline.transitions[0], duration=0.5),)
+                    + scene.timeline.transitions[1:])
+    document.edit(replace(scene, timeline=short), "too short")
+    assert runner.start()
+    qtbot.waitUntil(lambda: not runner.running, timeout=60_000)
+    assert "too short" in messages[-1] and "Traceback" not in messages[-1]
+    assert document.plan is None  # nothing half-made was shown
