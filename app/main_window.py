@@ -236,9 +236,11 @@ class MainWindow(QMainWindow):
         self.site.frame_points(points, margin=2.0)
 
     def _show_error(self, text: str) -> None:
-        box = QMessageBox(QMessageBox.Icon.Warning, "Skyloom", text.split("\n")[0][:200], parent=self)
-        box.setDetailedText(text) if "\n" in text else None
-        box.setInformativeText("\n".join(text.split("\n")[1:8]))
+        first, *rest = text.split("\n")
+        box = QMessageBox(QMessageBox.Icon.Warning, "Skyloom", first[:200], parent=self)
+        if rest:
+            box.setInformativeText("\n".join(rest[:7]))
+            box.setDetailedText(text)
         box.setModal(False)
         box.show()
         self.last_error = text

@@ -61,6 +61,13 @@ class DroneProblem:
     initial: np.ndarray | None = None
     cost_reference: float | None = None
 
+    def volume_bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        """Lower and upper corner ``(3,)`` m for control points: the flight volume shrunk by
+        :data:`VOLUME_SLACK` where the start and goal leave room."""
+        ends = np.stack([self.start, self.goal])
+        return (np.minimum(self.volume[0] + VOLUME_SLACK, ends.min(axis=0)),
+                np.maximum(self.volume[1] - VOLUME_SLACK, ends.max(axis=0)))
+
 
 @dataclass(frozen=True, eq=False)
 class DroneSolution:
@@ -115,9 +122,7 @@ def build_matrices(problem: DroneProblem) -> QPMatrices:
                  -np.inf, np.repeat(problem.offsets, n + 1),
                  [f"corridor ({'obstacles' if p < 0 else f'drone #{p}'})" for p in np.repeat(problem.partners, n + 1)])
     pieces_all, cps_all = np.divmod(np.arange(k_count * (n + 1)), n + 1)
-    ends = np.stack([problem.start, problem.goal])
-    low = np.minimum(problem.volume[0] + VOLUME_SLACK, ends.min(axis=0))
-    high = np.maximum(problem.volume[1] - VOLUME_SLACK, ends.max(axis=0))
+    low, high = problem.volume_bounds()
     for d in range(3):
         rows.add(pieces_all, cps_all, np.ones((len(cps_all), 1)), np.tile(_AXES[d], (len(cps_all), 1)),
                  low[d], high[d], "flight volume")

@@ -13,7 +13,7 @@ import numpy as np
 
 from ..bezier import bernstein_basis
 from .limits import ACCELERATION_DIRECTIONS, HORIZONTAL_DIRECTIONS, inscribed_scale
-from .qp import VOLUME_SLACK, DroneProblem
+from .qp import DroneProblem
 from .terms import TERM_ORDER, continuity_order, rest_order
 
 
@@ -45,13 +45,12 @@ def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variab
         cons += [deriv(0, r)[0] == 0, deriv(len(h) - 1, r)[-1] == 0]
     for k in range(len(h) - 1):
         cons += [deriv(k, r)[-1] == deriv(k + 1, r)[0] for r in range(continuity_order(n) + 1)]
+    low, high = problem.volume_bounds()
     for k in range(len(h)):
         rows = problem.pieces == k
         if rows.any():
             cons.append(b[k] @ problem.normals[rows].T <= problem.offsets[rows][None, :])
-        ends = np.stack([problem.start, problem.goal])
-        cons += [b[k] >= np.minimum(problem.volume[0] + VOLUME_SLACK, ends.min(axis=0)),
-                 b[k] <= np.maximum(problem.volume[1] - VOLUME_SLACK, ends.max(axis=0))]
+        cons += [b[k] >= low, b[k] <= high]
         v, a = deriv(k, 1), deriv(k, 2)
         vh, vv, acc = problem.limits
         cons += [cp.abs(v @ HORIZONTAL_DIRECTIONS.T) <= vh * inscribed_scale(HORIZONTAL_DIRECTIONS),

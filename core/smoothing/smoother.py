@@ -24,7 +24,7 @@ from ..verify import VerificationSpec, verify
 from .corridors import PairPlanes, Tubes, drone_rows, initial_planes, refined_planes, step_tubes
 from .limits import safe_step_durations, stop_at_vertices_points
 from .qp import DroneProblem, DroneSolution, solve_drone
-from .terms import TERM_ORDER, rest_order, trajectory_cost
+from .terms import TERM_ORDER, curve_costs, rest_order, trajectory_cost
 
 #: Relative objective decrease below which the iteration stops.
 IMPROVEMENT_TOLERANCE = 1e-3
@@ -86,14 +86,14 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     planes = initial_planes(starts, ends, clearance, envelope)
     seconds["corridors"] += time.perf_counter() - t0
     previous = stop_at_vertices_points(starts, ends, options.degree)
-    references = [trajectory_cost(previous[i], qp_durations, options.weights) for i in range(len(positions))]
+    references = curve_costs(previous, qp_durations, options.weights)
     best_objective = np.inf
     for it in range(options.iterations):
         cancel.check()
         progress("smoothing", it / options.iterations, f"{where}: iteration {it + 1} of {options.iterations}")
         t0 = time.perf_counter()
         problems = [_problem(i, positions, qp_durations, tubes, planes, spec, limits, options, previous[i],
-                             references[i]) for i in range(len(positions))]
+                             float(references[i])) for i in range(len(positions))]
         solutions: list[DroneSolution] = list(executor.map(solve_drone, problems))
         seconds["qp"] += time.perf_counter() - t0
         failed = [s for s in solutions if not s.ok]
@@ -114,8 +114,7 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
         if not report.ok:
             v = report.violations[0]
             outcome.note = (f"{where}: smoothing iteration {it + 1} failed verification ({len(report.violations)} "
-                            f"problems, first: {v.describe()}); kept "
-                            + ("the last verified iterate" if outcome.pieces is not None else "the stop-and-go plan"))
+                            f"problems, first: {v.describe()}); kept {_kept(outcome.pieces is not None)}")
             break
         outcome.durations, outcome.pieces, best_objective = durations, pieces, objective
         t0 = time.perf_counter()
@@ -172,5 +171,9 @@ def _failure_note(where: str, it: int, failed: list[DroneSolution], ids, have_it
         at = re.sub(r"drone #(\d+)", lambda m: f"drone {ids[int(m.group(1))]}", at)
         parts.append(f"drone {ids[s.drone]}{at}: {s.status}")
     more = f" and {len(failed) - 3} more" if len(failed) > 3 else ""
-    kept = "the last verified iterate" if have_iterate else "the stop-and-go plan"
-    return f"{where}: smoothing iteration {it + 1}: QP failed for " + "; ".join(parts) + more + f"; kept {kept}"
+    return f"{where}: smoothing iteration {it + 1}: QP failed for " + "; ".join(parts) + more + \
+        f"; kept {_kept(have_iterate)}"
+
+
+def _kept(have_iterate: bool) -> str:
+    return "the last verified iterate" if have_iterate else "the stop-and-go plan"

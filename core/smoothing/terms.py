@@ -65,15 +65,17 @@ def continuity_order(degree: int) -> int:
     return min(CONTINUITY_ORDER, (degree - 1) // 2)
 
 
-def trajectory_cost(pieces: np.ndarray, durations: np.ndarray, weights: dict[str, float]) -> float:
-    """``Σ_r w_r ∫‖p⁽ʳ⁾‖² dt`` of control points ``(..., S, n + 1, 3)`` on ``durations`` ``(S,)`` s."""
+def curve_costs(pieces: np.ndarray, durations: np.ndarray, weights: dict[str, float]) -> np.ndarray:
+    """``Σ_r w_r ∫‖p⁽ʳ⁾‖² dt`` per curve ``(...)`` of control points ``(..., S, n + 1, 3)`` on
+    ``durations`` ``(S,)`` s (each piece's cost matrix built once for all curves)."""
     degree = pieces.shape[-2] - 1
-    total = 0.0
-    for s, h in enumerate(durations):
-        q = piece_cost_matrix(degree, float(h), weights)
-        b = pieces[..., s, :, :]
-        total += float(np.einsum("...id,ij,...jd->...", b, q, b).sum())
-    return total
+    q = np.stack([piece_cost_matrix(degree, float(h), weights) for h in durations])  # (S, n+1, n+1)
+    return np.einsum("...sid,sij,...sjd->...", pieces, q, pieces)
+
+
+def trajectory_cost(pieces: np.ndarray, durations: np.ndarray, weights: dict[str, float]) -> float:
+    """:func:`curve_costs` summed over all curves."""
+    return float(curve_costs(pieces, durations, weights).sum())
 
 
 def parse_objective(text: str) -> dict[str, float]:
