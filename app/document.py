@@ -134,14 +134,19 @@ class Document(QObject):
 
     def problems(self) -> list[tuple[str, str]]:
         """What is inconsistent in the scene as edited (empty when it can be planned)."""
-        return check_scene(self.scene, str(self.path or self.scene.name), self.base_dir)
+        return check_scene(self.scene, self.source_name, self.base_dir)
+
+    @property
+    def source_name(self) -> str:
+        """The scene file's name for messages (the scene's name while it has no file)."""
+        return self.path.name if self.path else self.scene.name
 
     def meshes(self) -> tuple[SiteMesh, ...]:
         """The site's meshes (read once per site); an unreadable one is reported and skipped."""
         if self._mesh_site != self.scene.site:
             self._mesh_site = self.scene.site
             try:
-                self._meshes = load_site_meshes(self.scene.site, self.base_dir, self.scene.name)
+                self._meshes = load_site_meshes(self.scene.site, self.base_dir, self.source_name)
             except SkyloomError as exc:
                 self._meshes = ()
                 self.message.emit(str(exc))

@@ -28,10 +28,10 @@ from core.pipeline import PlanResult
 class ExportDialog(QDialog):
     """Folder, sample rate, caution, status; :meth:`write` does the export."""
 
-    def __init__(self, result: PlanResult, default_folder: Path, parent=None):
+    def __init__(self, result: PlanResult, default_folder: Path, protect: list[Path], parent=None):
         super().__init__(parent)
         self.setWindowTitle("Export plan")
-        self.result = result
+        self.result, self.protect = result, protect
         status = ("Verification PASSED: Skyloom's independent checker proved the clearances and limits over "
                   "continuous time." if result.verified else
                   f"Verification FAILED ({len(result.report.violations)} problems). Do not fly this plan.")
@@ -72,12 +72,17 @@ class ExportDialog(QDialog):
                                     and (self.result.verified or self.allow_unverified.isChecked()))
 
     def _browse(self) -> None:
-        folder = QFileDialog.getExistingDirectory(self, "Export folder", self.folder.text())
-        if folder:
+        folder = QFileDialog.getExistingDirectory(self, "Export folder", str(Path(self.folder.text()).parent))
+        if folder:  # a chosen folder that holds other files is refused on Save, with the reason
             self.folder.setText(folder)
 
-    def write(self) -> Path:
-        """Write the export (raises :class:`SkyloomError` or ``OSError`` with the reason)."""
-        return export_plan(self.result, Path(self.folder.text()), sample_rate_hz=self.rate.value(),
-                           allow_unverified=self.allow_unverified.isChecked())
+    def write(self) -> tuple[Path, list[str]]:
+        """Write the export; return its folder and notes about folders kept aside. Raises
+        :class:`SkyloomError` saying why when the folder may not be replaced or cannot be written
+        (only a new or empty folder, or an earlier Skyloom export, is replaced)."""
+        notes: list[str] = []
+        folder = export_plan(self.result, Path(self.folder.text()), sample_rate_hz=self.rate.value(),
+                             allow_unverified=self.allow_unverified.isChecked(), protect=self.protect,
+                             warn=notes.append)
+        return folder, notes
 

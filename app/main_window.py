@@ -22,6 +22,7 @@ from PySide6.QtWidgets import (
 
 from core import SAFETY_CAUTION
 from core.errors import SkyloomError
+from core.export.target import fresh_folder
 from core.plan_summary import plan_summary_lines
 
 from .document import Document
@@ -195,13 +196,16 @@ class MainWindow(QMainWindow):
             self._show_error("Plan the scene before exporting.")
             return
         stem = self.document.path.stem if self.document.path else self.document.scene.name
-        dialog = ExportDialog(self.document.plan, self.document.base_dir / f"{stem}_export", self)
+        protect = [self.document.path] if self.document.path else []
+        dialog = ExportDialog(self.document.plan, fresh_folder(self.document.base_dir, stem), protect, self)
         if dialog.exec():
             try:
-                folder = dialog.write()
-            except (OSError, SkyloomError) as exc:
-                self._show_error(f"export failed, nothing was replaced: {exc}")
+                folder, notes = dialog.write()
+            except SkyloomError as exc:
+                self._show_error(f"export refused or failed, nothing was replaced: {exc}")
                 return
+            if notes:
+                self._show_error("\n".join(["export written, with notes:", *notes]))
             self.statusBar().showMessage(f"wrote {folder}", 8000)
 
     # --- planning ----------------------------------------------------------------------------

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from PySide6.QtCore import QObject, QThread, Signal
 
+from core.crash_log import write_crash_log
 from core.errors import Cancelled, SkyloomError
 from core.inspection import closest_approaches
 from core.pipeline import PlanResult, plan
@@ -33,7 +34,9 @@ class _PlanJob(QObject):
         except SkyloomError as exc:
             self.failed.emit(str(exc))
         except Exception as exc:  # noqa: BLE001 - shown as a readable message, never a traceback
-            self.failed.emit(f"unexpected error ({type(exc).__name__}): {exc}. Please report it with the scene file.")
+            log = write_crash_log("designer: planning", exc)
+            self.failed.emit(f"internal error ({type(exc).__name__}); this is a bug, please report it with the scene "
+                             f"file and the log file {log}")
         else:  # the close approaches are sampled here too, off the GUI thread
             self.finished.emit(result, closest_approaches(result.trajectory, result.scene.fleet.semi_axes))
 

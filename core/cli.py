@@ -4,12 +4,15 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import math
 import sys
 from pathlib import Path
 
-from . import SAFETY_CAUTION, __version__
+from . import SAFETY_CAUTION, __version__, lifecycle
+from .crash_log import write_crash_log
 from .errors import Cancelled, SkyloomError
-from .export import export_plan, load_export
+from .export import audit_export, export_plan, inspect_target, load_export
+from .limits import MAX_SAMPLE_RATE_HZ, MAX_WORKERS
 from .pipeline import plan, with_settings
 from .plan_summary import plan_summary_lines
 from .progress import no_progress
@@ -17,7 +20,38 @@ from .scene import load_scene
 from .terminal_progress import TerminalProgress
 from .verify import spec_from_scene, verify
 
-EXIT_OK, EXIT_UNSAFE, EXIT_BAD_INPUT, EXIT_CANCELLED = 0, 1, 2, 130
+#: Exit codes (README, "Command line"): verified; fails verification (or the export does not match
+#: its curves); bad input or a file that cannot be read or written; an internal error (a bug: the
+#: traceback is in a log file); interrupted by Ctrl-C (SIGINT); ended by SIGTERM.
+EXIT_OK, EXIT_UNSAFE, EXIT_BAD_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
+EXIT_CANCELLED, EXIT_TERMINATED = lifecycle.EXIT_CODES.values()
+
+
+def _rate(text: str) -> float:
+    value = _finite(text)
+    if not 0 < value <= MAX_SAMPLE_RATE_HZ:
+        raise argparse.ArgumentTypeError(f"{text}: must be above 0 and at most {MAX_SAMPLE_RATE_HZ:g} Hz")
+    return value
+
+
+def _finite(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not math.isfinite(value):
+        raise argparse.ArgumentTypeError(f"{text}: must be a finite number")
+    return value
+
+
+def _workers(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if not 1 <= value <= MAX_WORKERS:
+        raise argparse.ArgumentTypeError(f"{text}: must be between 1 and {MAX_WORKERS}")
+    return value
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -36,17 +70,18 @@ def _parser() -> argparse.ArgumentParser:
                                     "A plan that fails verification is not written unless --export-unverified.")
     pl.add_argument("scene", type=Path, help="scene file (.json, see README: Scene file)")
     pl.add_argument("--out", type=Path, required=True,
-                    help="export folder (replaced only once the new export is complete)")
-    pl.add_argument("--rate", type=float, default=10.0, metavar="HZ", help="samples.csv rate in Hz (default 10)")
+                    help="export folder: a new or empty folder, or an earlier Skyloom export (replaced only once "
+                         "the new export is complete); anything else is refused")
+    pl.add_argument("--rate", type=_rate, default=10.0, metavar="HZ", help="samples.csv rate in Hz (default 10)")
     pl.add_argument("--degree", type=int, help="Bézier degree of each piece (default: the scene's, usually 7)")
     pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")
     pl.add_argument("--export-unverified", action="store_true",
                     help="write the export even if verification fails (every file is then marked UNVERIFIED)")
-    pl.add_argument("--suboptimality", type=float, metavar="W",
+    pl.add_argument("--suboptimality", type=_finite, metavar="W",
                     help="roadmap search: sum of costs within W × optimal (W ≥ 1; default: the scene's, usually 2)")
     pl.add_argument("--roadmap-samples", type=int, metavar="N", help="free-space samples for the roadmap")
-    pl.add_argument("--stretch", type=float, help="roadmap spanner stretch factor (≥ 1)")
-    pl.add_argument("--time-limit", type=float, metavar="S", help="roadmap search time limit per transition (s)")
+    pl.add_argument("--stretch", type=_finite, help="roadmap spanner stretch factor (≥ 1)")
+    pl.add_argument("--time-limit", type=_finite, metavar="S", help="roadmap search time limit per transition (s)")
     pl.add_argument("--no-cache", action="store_true", help="rebuild the roadmap instead of reusing a cached one")
     pl.add_argument("--no-smoothing", action="store_true",
                     help="keep roadmap plans stop-and-go (stop at every waypoint) instead of smoothing them")
@@ -54,7 +89,7 @@ def _parser() -> argparse.ArgumentParser:
     pl.add_argument("--objective", metavar="OBJ",
                     help="smoothing objective: snap, jerk, acceleration, energy, or weights such as "
                          "'acceleration=1,snap=0.01' (default: the scene's, usually snap)")
-    pl.add_argument("--workers", type=int, metavar="N",
+    pl.add_argument("--workers", type=_workers, metavar="N",
                     help="processes for the per-drone smoothing QPs (default: all CPUs; 1 = no extra processes)")
     pl.add_argument("--quiet", action="store_true", help="no progress bar")
 
@@ -73,18 +108,34 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run one ``skyloom`` command; returns its exit code. No traceback ever reaches the terminal:
+    an unexpected error prints one line and the log file that holds its traceback."""
     args = _parser().parse_args(argv)
     try:
-        return {"plan": _plan, "check": _check, "info": _info, "gui": _gui}[args.command](args)
+        with lifecycle.signal_guard():
+            return {"plan": _plan, "check": _check, "info": _info, "gui": _gui}[args.command](args)
     except Cancelled:
         print("skyloom: cancelled", file=sys.stderr)
         return EXIT_CANCELLED
     except KeyboardInterrupt:
-        print("\nskyloom: interrupted; nothing was written", file=sys.stderr)
+        print("\nskyloom: interrupted; worker processes ended, nothing half-written kept", file=sys.stderr)
         return EXIT_CANCELLED
+    except lifecycle.Terminated:
+        print("\nskyloom: terminated; worker processes ended, nothing half-written kept", file=sys.stderr)
+        return EXIT_TERMINATED
     except SkyloomError as exc:
         print(f"skyloom: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except MemoryError as exc:
+        log = write_crash_log(f"command: {vars(args)}", exc)
+        print(f"skyloom: ran out of memory; try a smaller fleet or fewer roadmap samples (details: {log})",
+              file=sys.stderr)
+        return EXIT_INTERNAL
+    except Exception as exc:  # noqa: BLE001 - the last line of defence: log it, never show a traceback
+        log = write_crash_log(f"command: {vars(args)}", exc)
+        print(f"skyloom: internal error ({type(exc).__name__}); this is a bug, please report it with the log "
+              f"file {log}", file=sys.stderr)
+        return EXIT_INTERNAL
 
 
 def _progress(args):
@@ -93,13 +144,14 @@ def _progress(args):
 
 def _plan(args) -> int:
     scene = load_scene(args.scene)
+    inspect_target(args.out.absolute(), [args.scene])  # refuse a target before minutes of planning
     progress = _progress(args)
     settings = with_settings(scene, degree=args.degree, profile=args.profile, suboptimality=args.suboptimality,
                              roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
                              search_time_limit=args.time_limit, smoothing_iterations=args.iterations,
                              objective=args.objective, smoothing=False if args.no_smoothing else None)
     result = plan(scene, settings=settings, base_dir=args.scene.parent, use_cache=not args.no_cache,
-                  progress=progress, workers=args.workers)
+                  progress=progress, workers=args.workers, source=args.scene.name)
     if isinstance(progress, TerminalProgress):
         progress.close()
     print("\n".join(plan_summary_lines(result)))
@@ -110,7 +162,8 @@ def _plan(args) -> int:
         if len(result.report.violations) > 20:
             print(f"  ... and {len(result.report.violations) - 20} more")
     if result.report.ok or args.export_unverified:
-        export_plan(result, args.out, sample_rate_hz=args.rate, allow_unverified=args.export_unverified)
+        export_plan(result, args.out, sample_rate_hz=args.rate, allow_unverified=args.export_unverified,
+                    protect=[args.scene], warn=lambda note: print(f"warning: {note}", file=sys.stderr))
         print(f"wrote {args.out}/" + ("" if result.report.ok else " (marked UNVERIFIED)"))
     else:
         print(f"nothing written to {args.out} (use --export-unverified to write it marked UNVERIFIED)")
@@ -119,18 +172,27 @@ def _plan(args) -> int:
 
 
 def _check(args) -> int:
-    scene, traj, manifest = load_export(args.folder)
+    loaded = load_export(args.folder)
     progress = _progress(args)
-    report = verify(traj, spec_from_scene(scene, args.folder), progress=progress)
+    report = verify(loaded.trajectory, spec_from_scene(loaded.scene, args.folder), progress=progress)
     if isinstance(progress, TerminalProgress):
         progress.close()
     print("\n".join(report.summary_lines()))
     for v in report.violations[:20]:
         print("  " + v.describe())
-    if manifest.get("verified") and not report.ok:
+    findings = audit_export(loaded)
+    if findings:
+        print(f"Export files: {len(findings)} problem(s) — what controllers would read does not match the verified "
+              "curves or the files were changed:")
+        for f in findings:
+            print("  " + f.describe())
+    else:
+        print("Export files: every trajectory's monomials and every samples.csv row match the verified curves; "
+              "every file matches its digest and carries the same status and caution.")
+    if loaded.manifest.verified and not report.ok:
         print("warning: the export claims it was verified, but this check fails", file=sys.stderr)
     print(f"Safety: {SAFETY_CAUTION}")
-    return EXIT_OK if report.ok else EXIT_UNSAFE
+    return EXIT_OK if report.ok and not findings else EXIT_UNSAFE
 
 
 def _gui(args) -> int:

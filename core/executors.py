@@ -4,9 +4,16 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import signal
+import threading
 from collections.abc import Iterator
 from concurrent.futures import Executor, Future, ProcessPoolExecutor
 from contextlib import contextmanager
+
+from . import lifecycle
+
+#: How often a worker process looks whether the process that started it is still alive (s).
+PARENT_POLL_S = 0.25
 
 
 class InlineExecutor(Executor):
@@ -26,12 +33,37 @@ def default_workers() -> int:
     return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
 
 
+def _worker_start(parent_pid: int) -> None:
+    """Runs first in every pool process: Ctrl-C (sent to the whole terminal group) is the parent's
+    to handle, and a worker whose parent has died (even by SIGKILL) ends itself."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+    def watch() -> None:
+        while os.getppid() == parent_pid:
+            threading.Event().wait(PARENT_POLL_S)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="skyloom-parent-watch", daemon=True).start()
+
+
+def _end_workers(pool: ProcessPoolExecutor) -> None:
+    """Kill ``pool``'s processes now (their work is abandoned) and stop the pool without waiting."""
+    processes = list((getattr(pool, "_processes", None) or {}).values())  # no public API before Python 3.14
+    for process in processes:
+        if process.is_alive():
+            process.kill()
+    pool.shutdown(wait=False, cancel_futures=True)
+    for process in processes:
+        process.join(timeout=1.0)
+
+
 @contextmanager
 def plan_executor(executor: Executor | None = None, workers: int | None = None) -> Iterator[Executor]:
     """``executor`` if given (the caller owns it); else a process pool of ``workers`` (default:
-    :func:`default_workers`) that starts its processes on first use and is shut down on exit, or an
-    :class:`InlineExecutor` for one worker. Pools use the "spawn" start method, which is safe in
-    a program with threads (the GUI)."""
+    :func:`default_workers`) that starts its processes on first use, or an :class:`InlineExecutor`
+    for one worker. Pools use the "spawn" start method, which is safe in a program with threads
+    (the GUI). On a normal exit the pool is shut down; when the body raises (an error, a cancel,
+    a signal) its processes are killed at once instead of finishing their QPs."""
     if executor is not None:
         yield executor
         return
@@ -39,5 +71,15 @@ def plan_executor(executor: Executor | None = None, workers: int | None = None) 
     if workers <= 1:
         yield InlineExecutor()
         return
-    with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")) as pool:
+    pool = ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn"),
+                               initializer=_worker_start, initargs=(os.getpid(),))
+    forget = lifecycle.on_emergency_exit(lambda: _end_workers(pool))
+    try:
         yield pool
+    except BaseException:
+        _end_workers(pool)
+        raise
+    else:
+        pool.shutdown(wait=True)
+    finally:
+        forget()

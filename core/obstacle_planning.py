@@ -46,8 +46,10 @@ class ObstaclePlanner:
     """
 
     def __init__(self, scene: Scene, settings: PlannerSettings, base_dir: Path, executor: Executor, *,
-                 use_cache: bool = True, progress: ProgressCallback = no_progress, cancel: CancelToken | None = None):
+                 use_cache: bool = True, progress: ProgressCallback = no_progress, cancel: CancelToken | None = None,
+                 source: str = "scene"):
         self.scene, self.settings, self.base_dir, self.executor = scene, settings, Path(base_dir), executor
+        self.source = source  # the scene file's name, for messages
         self.use_cache, self.progress, self.cancel = use_cache, progress, cancel or CancelToken()
         self.envelope = scene.fleet.semi_axes.max(axis=0)
         self.pair_scale = ClearanceModel(scene.fleet.semi_axes).bound_radii
@@ -60,8 +62,8 @@ class ObstaclePlanner:
 
     @cached_property
     def meshes(self) -> tuple[SiteMesh, ...]:
-        meshes = load_site_meshes(self.scene.site, self.base_dir, self.scene.name)
-        self.stats["mesh_warnings"] = [f"mesh {m.name!r}: {w}" for m in meshes for w in m.warnings]
+        meshes = load_site_meshes(self.scene.site, self.base_dir, self.source)
+        self.stats.setdefault("warnings", []).extend(f"mesh {m.name!r}: {w}" for m in meshes for w in m.warnings)
         self._check_formations_clear(meshes)
         return meshes
 
@@ -85,10 +87,11 @@ class ObstaclePlanner:
         rs = RoadmapSettings(s.roadmap_samples, s.roadmap_neighbours, s.spanner_stretch, s.roadmap_seed)
         field = self.field
         t0 = time.perf_counter()
-        base, cached = cached_roadmap(
+        base, cached, cache_warnings = cached_roadmap(
             roadmap_key(field, self.pair_scale, rs),
             lambda: build_roadmap(field, self.pair_scale, rs, progress=self.progress, cancel=self.cancel),
             self.use_cache)
+        self.stats.setdefault("warnings", []).extend(cache_warnings)
         self.seconds["roadmap"] = time.perf_counter() - t0
         t0 = time.perf_counter()
         formations = self.scene.formations
@@ -124,7 +127,14 @@ class ObstaclePlanner:
             except ValueError:
                 nearest = np.argmin(np.where(np.isfinite(cost), cost, np.inf), axis=1)
                 self._check_reachable(where, roadmap, starts, goal_vertices[nearest], target, nearest)
-                raise PlanningError(f"{where}: no assignment lets every drone reach a goal on the roadmap") from None
+                cut_off = np.nonzero(~np.isfinite(cost).any(axis=0))[0]
+                index = [f.name for f in self.scene.formations].index(target)
+                points = ", ".join(f"formations[{index}] ({target!r}).points[{k}] at "
+                                   f"{_xyz(roadmap.vertices[goal_vertices[k]])}" for k in cut_off[:5])
+                raise PlanningError(
+                    f"{where}: no assignment lets every drone reach a goal on the roadmap"
+                    + (f"; no drone can reach {points}" + (f" and {len(cut_off) - 5} more" if len(cut_off) > 5 else "")
+                       + " (boxed in by obstacles or keep-out boxes?)" if len(cut_off) else "")) from None
         goals = goal_vertices[chosen.goal_of]
         self._check_reachable(where, roadmap, starts, goals, target, chosen.goal_of)
         t0 = time.perf_counter()
@@ -174,7 +184,8 @@ class ObstaclePlanner:
         if len(stuck) == 0:
             return
         ids = self.scene.fleet.ids
-        names = ", ".join(f"drone {ids[k]} → formations.{target}.points[{goal_index[k]}] at "
+        index = [f.name for f in self.scene.formations].index(target)
+        names = ", ".join(f"drone {ids[k]} → formations[{index}] ({target!r}).points[{goal_index[k]}] at "
                           f"{_xyz(roadmap.vertices[goals[k]])}" for k in stuck[:5])
         more = f" and {len(stuck) - 5} more" if len(stuck) > 5 else ""
         raise PlanningError(f"{where}: unreachable goal: no collision-free roadmap path for {names}{more}. The "
@@ -186,14 +197,14 @@ class ObstaclePlanner:
         problems = []
         for m in meshes:
             scaled = trimesh.Trimesh(m.mesh.vertices / self.envelope, m.mesh.faces, process=False)
-            for f in self.scene.formations:
+            for i, f in enumerate(self.scene.formations):
                 p = f.positions / self.envelope
                 distance = trimesh.proximity.closest_point(scaled, p)[1]
                 inside = scaled.contains(p) if m.watertight else np.zeros(len(p), dtype=bool)
                 for k in np.nonzero(inside | (distance < 1.0))[0]:
                     why = "is inside" if inside[k] else f"is too close to ({distance[k]:.2f} of the clearance)"
-                    problems.append((f"{self.scene.name}: formations.{f.name}.points[{k}] at {_xyz(f.positions[k])}",
-                                     f"{why} mesh {m.name!r}"))
+                    problems.append((f"{self.source}: formations[{i}] ({f.name!r}).points[{k}]",
+                                     f"{_xyz(f.positions[k])} {why} mesh {m.name!r}"))
         if problems:
             raise SceneError(problems)
 
@@ -205,17 +216,19 @@ class ObstaclePlanner:
         spans = [(f.name, len(f.positions)) for f in self.scene.formations]
         problems = []
         for k, why in zip(blocked, what, strict=True):
-            name, local = _locate(spans, int(k))
-            problems.append((f"{self.scene.name}: formations.{name}.points[{local}] at {_xyz(points[k])}",
-                             f"within the planner's conservative clearance of {why} (field error bound "
-                             f"{self.field.error_bound:.2f} clearance radii); move it a little further away"))
+            index, local = _locate(spans, int(k))
+            problems.append((f"{self.source}: formations[{index}] ({spans[index][0]!r}).points[{local}]",
+                             f"{_xyz(points[k])} is within the planner's conservative clearance of {why} "
+                             f"(field error bound {self.field.error_bound:.2f} clearance radii); move it a little "
+                             "further away"))
         raise SceneError(problems)
 
 
-def _locate(spans: list[tuple[str, int]], k: int) -> tuple[str, int]:
-    for name, count in spans:
+def _locate(spans: list[tuple[str, int]], k: int) -> tuple[int, int]:
+    """Formation index and point index of row ``k`` of the formations' points stacked in order."""
+    for index, (_name, count) in enumerate(spans):
         if k < count:
-            return name, k
+            return index, k
         k -= count
     raise IndexError(k)
 

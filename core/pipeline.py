@@ -69,8 +69,8 @@ class PlanResult:
 
 def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str | Path | None = None,
          use_cache: bool = True, progress: ProgressCallback = no_progress,
-         cancel: CancelToken | None = None, executor: Executor | None = None, workers: int | None = None
-         ) -> PlanResult:
+         cancel: CancelToken | None = None, executor: Executor | None = None, workers: int | None = None,
+         source: str = "scene") -> PlanResult:
     """Plan and verify every transition of ``scene``'s timeline.
 
     ``base_dir`` is the folder mesh paths are relative to (the scene file's folder); ``use_cache``
@@ -78,15 +78,15 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
     :class:`concurrent.futures.Executor`), else on a process pool of ``workers`` (see
     :func:`core.executors.plan_executor`). Raises :class:`PlanningError` (or :class:`SceneError`) naming
     the transition and drones when no plan can be made. A plan that fails verification is returned
-    with ``report.ok`` False; callers decide what to do.
+    with ``report.ok`` False; callers decide what to do. ``source`` names the scene file in messages.
     """
     with plan_executor(executor, workers) as pool:
         return _plan(scene, settings or scene.planner, Path(base_dir or "."), use_cache, progress,
-                     cancel or CancelToken(), pool)
+                     cancel or CancelToken(), pool, source)
 
 
 def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, progress: ProgressCallback,
-          cancel: CancelToken, executor: Executor) -> PlanResult:
+          cancel: CancelToken, executor: Executor, source: str) -> PlanResult:
     profile = PROFILES[settings.profile]
     if profile.degree > settings.degree:
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
@@ -95,7 +95,7 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
     clearance = ClearanceModel(scene.fleet.semi_axes)
     scale = clearance.bound_radii
     obstacles = ObstaclePlanner(scene, settings, base_dir, executor, use_cache=use_cache, progress=progress,
-                                cancel=cancel)
+                                cancel=cancel, source=source)
     spec = spec_from_scene(scene, meshes=obstacles.meshes)  # meshes read (and checked) once, before planning
     timings: dict[str, float] = {"assignment": 0.0, "transitions": 0.0}
 

@@ -7,8 +7,8 @@ from .pipeline import PlanResult
 
 
 def plan_summary_lines(result: PlanResult) -> list[str]:
-    """Lines: mesh warnings, how each transition was planned, the roadmap, and the stage times."""
-    lines = [f"warning: {w}" for w in result.stats.get("mesh_warnings", [])]
+    """Lines: warnings (meshes, cache), how each transition was planned, the roadmap, and the stage times."""
+    lines = [f"warning: {w}" for w in result.stats.get("warnings", [])]
     for t in result.transitions:
         lines.append(f"{t.source} → {t.target}: {t.mode} ({t.assignment.method}), {t.method}, {t.duration:.2f} s "
                      f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the straight-line lower bound)")

@@ -73,8 +73,8 @@ def test_export_files_agree_with_each_other(lab_result, tmp_path):
 
 def test_reloaded_export_verifies_again(lab_result, tmp_path):
     out = export_plan(lab_result, tmp_path / "out")
-    scene, traj, _ = load_export(out)
-    np.testing.assert_allclose(traj.control_points, lab_result.trajectory.control_points)
+    loaded = load_export(out)
+    np.testing.assert_allclose(loaded.trajectory.control_points, lab_result.trajectory.control_points)
     assert main(["check", str(out), "--quiet"]) == 0
 
 
@@ -109,8 +109,8 @@ def test_export_failure_keeps_the_previous_export(lab_result, tmp_path, monkeypa
     before = (out / "plan.json").read_text()
     import core.export.folder as folder
 
-    monkeypatch.setattr(folder, "samples_csv", lambda *a: (_ for _ in ()).throw(OSError("disk full")))
-    with pytest.raises(OSError):
+    monkeypatch.setattr(folder, "write_samples_csv", lambda *a: (_ for _ in ()).throw(OSError(28, "disk full")))
+    with pytest.raises(ExportError, match="disk full.*nothing was replaced"):
         export_plan(lab_result, tmp_path / "out")
     assert (out / "plan.json").read_text() == before
     assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]

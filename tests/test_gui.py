@@ -11,6 +11,7 @@ from PySide6.QtCore import QPointF, QSettings, Qt
 from scipy.spatial import cKDTree
 
 from conftest import HAS_OPENGL, ROOT
+from core.errors import SkyloomError
 from core.scene import load_scene
 
 SAMPLES = ROOT / "sample_scenes"
@@ -262,14 +263,43 @@ def test_export_shows_the_caution_and_writes_through_the_core_exporter(qtbot, wi
     from app.export_dialog import ExportDialog
     from core import SAFETY_CAUTION
     _plan(qtbot, window)
-    dialog = ExportDialog(window.document.plan, tmp_path / "out")
+    dialog = ExportDialog(window.document.plan, tmp_path / "out", [window.document.path])
     qtbot.addWidget(dialog)
     assert SAFETY_CAUTION in dialog.caution.text() and "PASSED" in dialog.status.text()
     assert not dialog.save_button.isEnabled()
     dialog.understood.setChecked(True)
     assert dialog.save_button.isEnabled()
-    folder = dialog.write()
-    assert (folder / "plan.json").exists() and "VERIFIED" in (folder / "report.txt").read_text()
+    folder, notes = dialog.write()
+    assert (folder / "plan.json").exists() and "VERIFIED" in (folder / "report.txt").read_text() and not notes
+    # A folder of the user's own files is refused and left exactly as it was.
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("keep me")
+    dialog.folder.setText(str(mine))
+    with pytest.raises(SkyloomError, match="did not write"):
+        dialog.write()
+    assert [p.name for p in mine.iterdir()] == ["notes.txt"] and (mine / "notes.txt").read_text() == "keep me"
+
+
+@needs_opengl
+def test_export_proposes_a_fresh_folder_beside_the_scene(qtbot, window, monkeypatch):
+    from app import main_window
+    seen = {}
+
+    class Recorder:
+        def __init__(self, plan, folder, protect, parent):
+            seen.update(folder=folder, protect=protect)
+
+        def exec(self):
+            return False
+
+    monkeypatch.setattr(main_window, "ExportDialog", Recorder)
+    _plan(qtbot, window)
+    assert window.document.plan is not None
+    scene_path = window.document.path
+    window.export()
+    assert seen["folder"].parent == scene_path.parent and not seen["folder"].exists()
+    assert seen["protect"] == [scene_path]
 
 
 def test_gui_command_reports_a_missing_scene_without_a_traceback(capsys):

@@ -86,14 +86,14 @@ def _wall_scene(tmp_path, goal_y, wall_extents=(20.0, 1.0, 10.0)):
 
 def test_goal_inside_an_obstacle_names_the_point_and_mesh(tmp_path):
     scene = _wall_scene(tmp_path, goal_y=0.0)
-    inside = r"formations\.b\.points\[0\] at \(-2\.00, 0\.00, 2\.00\).*is inside mesh 'wall'"
+    inside = r"formations\[1\] \('b'\)\.points\[0\]: \(-2\.00, 0\.00, 2\.00\) is inside mesh 'wall'"
     with pytest.raises(SceneError, match=inside):
         plan(scene, base_dir=tmp_path)
 
 
 def test_unreachable_goal_names_the_drone(tmp_path):
     scene = _wall_scene(tmp_path, goal_y=4.0)  # the wall spans the whole volume: the far side is cut off
-    with pytest.raises(PlanningError, match=r"unreachable goal: .*drone d0 → formations\.b\.points\[0\]"):
+    with pytest.raises(PlanningError, match=r"unreachable goal: .*drone d0 → formations\[1\] \('b'\)\.points\[0\]"):
         plan(scene, base_dir=tmp_path)
 
 
@@ -113,7 +113,7 @@ def test_formation_point_outside_the_volume_is_named():
 def test_unreadable_mesh_is_a_clear_error(tmp_path):
     scene = _wall_scene(tmp_path, goal_y=4.0)
     (tmp_path / "wall.stl").write_bytes(b"\x00garbage" * 7)
-    unreadable = r"site\.meshes\[0\] \('wall'\): (cannot read mesh file|mesh file .* contains no)"
+    unreadable = r"site\.meshes\[0\]\.file: mesh 'wall' \(wall\.stl\): (not a readable STL mesh|contains no triangles)"
     with pytest.raises(SceneError, match=unreadable):
         plan(scene, base_dir=tmp_path)
 

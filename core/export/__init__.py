@@ -1,5 +1,10 @@
 """Export folders: per-drone trajectories, samples, report, 3D paths (format: README, "Export folder")."""
 
-from .folder import EXPORT_FORMAT, export_plan, load_export
+from .audit import ExportFinding, audit_export
+from .documents import EXPORT_FORMAT
+from .folder import export_plan
+from .load import LoadedExport, load_export
+from .target import inspect_target
 
-__all__ = ["EXPORT_FORMAT", "export_plan", "load_export"]
+__all__ = ["EXPORT_FORMAT", "ExportFinding", "LoadedExport", "audit_export", "export_plan", "inspect_target",
+           "load_export"]

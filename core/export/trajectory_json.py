@@ -5,37 +5,51 @@ from __future__ import annotations
 import numpy as np
 
 from ..trajectory import FleetTrajectory
+from .documents import Axes, ExportStatus, PieceDoc, TrajectoryDoc
 
-TRAJECTORY_FORMAT = "skyloom-trajectory"
 _AXES = ("x", "y", "z")
 
 
-def trajectory_document(traj: FleetTrajectory, k: int, drone_type: str, status: dict) -> dict:
-    """The file content for drone ``k``: Bézier control points and monomial coefficients per piece.
-
-    ``monomial[axis][m]`` multiplies ``t**m`` with ``t`` in seconds from the piece start.
-    """
-    mono = traj.monomial_coefficients()[k]
-    pieces = []
-    for s in range(traj.n_segments):
-        pieces.append({
-            "start": float(traj.breaks[s]),
-            "duration": float(traj.durations[s]),
-            "label": traj.segment_labels[s],
-            "bezier": {a: traj.control_points[k, s, :, i].tolist() for i, a in enumerate(_AXES)},
-            "monomial": {a: mono[s, :, i].tolist() for i, a in enumerate(_AXES)},
-        })
-    return {
-        "format": TRAJECTORY_FORMAT, "version": 1, **status,
-        "drone": traj.drone_ids[k], "drone_type": drone_type,
-        "units": {"time": "s", "position": "m"}, "degree": traj.degree, "pieces": pieces,
-    }
+def _axes(values: np.ndarray) -> Axes:
+    """``values`` ``(n + 1, 3)`` as per-axis lists."""
+    return Axes(**{a: values[:, i].tolist() for i, a in enumerate(_AXES)})
 
 
-def trajectory_from_documents(documents: list[dict]) -> FleetTrajectory:
-    """Rebuild a :class:`FleetTrajectory` from per-drone documents (their Bézier points)."""
-    first = documents[0]["pieces"]
-    breaks = np.r_[[p["start"] for p in first], first[-1]["start"] + first[-1]["duration"]]
-    points = np.array([[np.c_[[p["bezier"][a] for a in _AXES]].T for p in doc["pieces"]] for doc in documents])
-    return FleetTrajectory(breaks=breaks, control_points=points, drone_ids=tuple(d["drone"] for d in documents),
-                           segment_labels=tuple(p["label"] for p in first))
+def trajectory_document(traj: FleetTrajectory, k: int, monomials: np.ndarray, drone_type: str,
+                        status: ExportStatus) -> TrajectoryDoc:
+    """The file content for drone ``k``: Bézier control points and power-basis coefficients
+    ``monomials`` ``(S, n + 1, 3)`` of that drone (:meth:`FleetTrajectory.monomial_coefficients`)."""
+    pieces = [PieceDoc(start=float(traj.breaks[s]), duration=float(traj.durations[s]), label=traj.segment_labels[s],
+                       bezier=_axes(traj.control_points[k, s]), monomial=_axes(monomials[s]))
+              for s in range(traj.n_segments)]
+    return TrajectoryDoc(**status.model_dump(), drone=traj.drone_ids[k], drone_type=drone_type,
+                         units={"time": "s", "position": "m"}, degree=traj.degree, pieces=pieces)
+
+
+def piece_points(doc: TrajectoryDoc, basis: str) -> list[np.ndarray]:
+    """Per piece, the ``basis`` (``"bezier"`` or ``"monomial"``) coefficients as ``(m, 3)`` arrays."""
+    out = []
+    for p in doc.pieces:
+        axes = getattr(p, basis)
+        if not len(axes.x) == len(axes.y) == len(axes.z):
+            raise ValueError(f"piece starting at {p.start:g} s has {basis} axes of different lengths")
+        out.append(np.column_stack([axes.x, axes.y, axes.z]))
+    return out
+
+
+def trajectory_from_documents(documents: list[TrajectoryDoc]) -> FleetTrajectory:
+    """Rebuild a :class:`FleetTrajectory` from per-drone documents (their Bézier points). Raises
+    ValueError naming the drone when the documents disagree on pieces, times or degree."""
+    first = documents[0]
+    breaks = np.r_[[p.start for p in first.pieces], first.pieces[-1].start + first.pieces[-1].duration]
+    points = []
+    for doc in documents:
+        starts = np.array([p.start for p in doc.pieces])
+        if len(doc.pieces) != len(first.pieces) or not np.allclose(starts, breaks[:-1], rtol=0, atol=1e-9):
+            raise ValueError(f"drone {doc.drone!r}: its pieces do not share the fleet's breakpoints")
+        pieces = piece_points(doc, "bezier")
+        if any(len(p) != doc.degree + 1 for p in pieces) or doc.degree != first.degree:
+            raise ValueError(f"drone {doc.drone!r}: control point count does not match degree {first.degree}")
+        points.append(pieces)
+    return FleetTrajectory(breaks=breaks, control_points=np.array(points), drone_ids=tuple(d.drone for d in documents),
+                           segment_labels=tuple(p.label for p in first.pieces))

@@ -2,7 +2,10 @@
 (site geometry, clearance shapes, roadmap settings), so re-planning a changed timeline reuses them.
 
 Location: ``$SKYLOOM_CACHE_DIR``, else ``$XDG_CACHE_HOME/skyloom``, else ``~/.cache/skyloom``.
-Files are written atomically; an unreadable entry is ignored and rebuilt.
+Files are written atomically. Each entry carries a SHA-256 checksum of its key and arrays, so a
+truncated, damaged or misplaced (well-formed, but for other inputs) entry is recognised. Any
+cache fault — an unreadable or inconsistent entry, a folder that cannot be written, a cache path
+that is a file — means "plan without the cache" and a warning, never a failed plan.
 """
 
 from __future__ import annotations
@@ -11,6 +14,7 @@ import hashlib
 import io
 import json
 import os
+import zipfile
 from collections.abc import Callable
 from dataclasses import asdict
 from pathlib import Path
@@ -23,7 +27,8 @@ from .build import RoadmapSettings
 from .conflicts import ConflictPairs
 from .graph import Roadmap
 
-CACHE_FORMAT = "skyloom-roadmap-cache-1"
+CACHE_FORMAT = "skyloom-roadmap-cache-2"
+_ARRAYS = ("vertices", "edges", "vv", "ve", "ee", "n_sampled")
 
 
 def cache_dir() -> Path:
@@ -45,26 +50,60 @@ def roadmap_key(field: ClearanceField, pair_scale: np.ndarray, settings: Roadmap
     return h.hexdigest()[:32]
 
 
-def cached_roadmap(key: str, build: Callable[[], Roadmap], use_cache: bool = True) -> tuple[Roadmap, bool]:
-    """The roadmap stored under ``key``, else ``build()`` (stored when ``use_cache``); and whether it was cached."""
+def cached_roadmap(key: str, build: Callable[[], Roadmap], use_cache: bool = True
+                   ) -> tuple[Roadmap, bool, list[str]]:
+    """The roadmap stored under ``key``, else ``build()`` (stored when ``use_cache``); whether it
+    came from the cache; and warnings about cache faults (the plan goes on without the cache)."""
     path = cache_dir() / "roadmaps" / f"{key}.npz"
-    if use_cache and path.is_file():
+    warnings = []
+    if use_cache and path.exists():
         try:
-            with np.load(path) as z:
-                conflicts = ConflictPairs(z["vv"], z["ve"], z["ee"])
-                return Roadmap(z["vertices"], z["edges"], conflicts, int(z["n_sampled"])), True
-        except (OSError, KeyError, ValueError):
-            pass  # damaged entry: rebuild and overwrite
+            return _read_entry(path, key), True, warnings
+        except (OSError, ValueError, KeyError, EOFError, zipfile.BadZipFile) as exc:
+            warnings.append(f"roadmap cache entry {path} is unusable ({exc}); rebuilt the roadmap")
     roadmap = build()
     if use_cache:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        write_bytes_atomic(path, _npz_bytes(roadmap))
-    return roadmap, False
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            write_bytes_atomic(path, _entry_bytes(roadmap, key))
+        except OSError as exc:
+            warnings.append(f"could not store the roadmap in the cache {path.parent} ({exc.strerror or exc}); "
+                            "planned without caching it")
+    return roadmap, False, warnings
 
 
-def _npz_bytes(roadmap: Roadmap) -> bytes:
-    buffer = io.BytesIO()
+def _checksum(key: str, arrays: dict[str, np.ndarray]) -> str:
+    h = hashlib.sha256(key.encode())
+    for name in _ARRAYS:
+        a = np.ascontiguousarray(arrays[name])
+        h.update(f"{name}:{a.dtype.str}:{a.shape}".encode())
+        h.update(a.tobytes())
+    return h.hexdigest()
+
+
+def _read_entry(path: Path, key: str) -> Roadmap:
+    """The roadmap in ``path``; ValueError when its checksum, shapes or indices are off."""
+    with np.load(path, allow_pickle=False) as z:
+        arrays = {name: z[name] for name in _ARRAYS}
+        stored = str(z["checksum"])
+    if stored != _checksum(key, arrays):
+        raise ValueError("checksum mismatch: damaged, or written for other inputs")
+    vertices, edges = arrays["vertices"], arrays["edges"]
+    if vertices.ndim != 2 or vertices.shape[1] != 3 or not np.isfinite(vertices).all():
+        raise ValueError("vertices are not finite (V, 3) coordinates")
+    n_v, n_e = len(vertices), len(edges)
+    for name, bound_a, bound_b in (("edges", n_v, n_v), ("vv", n_v, n_v), ("ve", n_v, n_e), ("ee", n_e, n_e)):
+        a = arrays[name]
+        if a.ndim != 2 or a.shape[1] != 2 or a.dtype.kind not in "iu" or (len(a) and (
+                a.min() < 0 or a[:, 0].max() >= bound_a or a[:, 1].max() >= bound_b)):
+            raise ValueError(f"{name} is not a (P, 2) table of valid indices")
+    return Roadmap(vertices, edges, ConflictPairs(arrays["vv"], arrays["ve"], arrays["ee"]), int(arrays["n_sampled"]))
+
+
+def _entry_bytes(roadmap: Roadmap, key: str) -> bytes:
     c = roadmap.conflicts
-    np.savez_compressed(buffer, vertices=roadmap.vertices, edges=roadmap.edges, vv=c.vv, ve=c.ve, ee=c.ee,
-                        n_sampled=roadmap.n_sampled)
+    arrays = {"vertices": roadmap.vertices, "edges": roadmap.edges, "vv": c.vv, "ve": c.ve, "ee": c.ee,
+              "n_sampled": np.asarray(roadmap.n_sampled)}
+    buffer = io.BytesIO()
+    np.savez_compressed(buffer, checksum=np.asarray(_checksum(key, arrays)), **arrays)
     return buffer.getvalue()

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .. import limits
 from ..clearance import ClearanceModel
 from .model import Scene
 
@@ -28,7 +29,9 @@ def format_xyz(point: np.ndarray, spec: str = "g") -> str:
 def check_scene(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, str]]:
     """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound.
     ``base_dir`` is the folder mesh paths are relative to."""
-    problems: list[tuple[str, str]] = []
+    problems: list[tuple[str, str]] = _check_fleet_size(scene, source)
+    if problems:
+        return problems
     problems += _check_names(scene, source)
     if problems:
         return problems
@@ -44,8 +47,24 @@ def _duplicates(names: list[str]) -> list[str]:
     return [n for n, c in Counter(names).items() if c > 1]
 
 
+def _check_fleet_size(scene: Scene, source: str) -> list[tuple[str, str]]:
+    n = len(scene.fleet.drones)
+    if n <= limits.MAX_DRONES:
+        return []
+    need_gb = limits.ASSIGNMENT_BYTES_PER_PAIR * n * n / 1e9
+    return [(f"{source}: fleet.drones", f"{n} drones: Skyloom plans at most {limits.MAX_DRONES} (the goal "
+             f"assignment alone would need about {need_gb:.1f} GB of memory for {n}); split the fleet into "
+             "several scenes")]
+
+
 def _check_names(scene: Scene, source: str) -> list[tuple[str, str]]:
     out = []
+    by_folded: dict[str, str] = {}
+    for i, d in enumerate(scene.fleet.drones):
+        other = by_folded.setdefault(d.id.casefold(), d.id)
+        if other != d.id:
+            out.append((f"{source}: fleet.drones[{i}].id", f"{d.id!r} and {other!r} differ only in case; they would "
+                        "share one trajectory file on disks that ignore case"))
     for field, names in (
         ("fleet.types", [t.name for t in scene.fleet.types]),
         ("fleet.drones", [d.id for d in scene.fleet.drones]),
@@ -79,6 +98,10 @@ def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
     for where, box in boxes:
         if np.any(box.bounds[1] <= box.bounds[0]):
             out.append((f"{source}: {where}", f"upper {box.upper} must exceed lower {box.lower} on every axis"))
+    extent = np.ptp(scene.site.flight_volume.bounds, axis=0)
+    if np.any(extent > limits.MAX_SITE_EXTENT_M):
+        out.append((f"{source}: site.flight_volume", f"spans {format_xyz(extent)} m; each side may be at most "
+                    f"{limits.MAX_SITE_EXTENT_M:g} m"))
     return out
 
 
@@ -130,6 +153,11 @@ def _listed(problems: list[tuple[str, str]]) -> list[tuple[str, str]]:
 
 def _check_timeline(scene: Scene, source: str) -> list[tuple[str, str]]:
     out = []
+    tl = scene.timeline
+    fixed = tl.start_hold + sum(t.hold + (0.0 if t.duration == "fastest" else t.duration) for t in tl.transitions)
+    if fixed > limits.MAX_TIMELINE_S:
+        out.append((f"{source}: timeline", f"durations and holds add up to {fixed:.0f} s; a timeline may last at "
+                    f"most {limits.MAX_TIMELINE_S:.0f} s (7 days)"))
     names = {f.name: f for f in scene.formations}
     if scene.timeline.start not in names:
         return [(f"{source}: timeline.start", f"unknown formation {scene.timeline.start!r}")]

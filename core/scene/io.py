@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 import re
 from pathlib import Path
 from typing import Any
@@ -13,30 +14,39 @@ from pydantic import TypeAdapter, ValidationError
 
 from ..atomic import write_text_atomic
 from ..errors import SceneError
+from ..limits import MAX_CSV_BYTES
+from ..reading import UnreadableFile, load_json_file, read_text_limited
 from .checks import check_scene
 from .model import Scene
 
 _ADAPTER = TypeAdapter(Scene)
+#: Validation problems listed in one message before "and N more".
+MAX_LISTED_PROBLEMS = 20
 
 
 def load_scene(path: str | Path) -> Scene:
     """Read, validate and check a scene file; raise :class:`SceneError` naming file, field, reason."""
     path = Path(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise SceneError([(str(path), f"cannot read the file ({exc})")]) from None
-    try:
-        data = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise SceneError([(f"{path}: line {exc.lineno}, column {exc.colno}", f"not valid JSON: {exc.msg}")]) from None
+        data = load_json_file(path)
+    except UnreadableFile as exc:
+        raise SceneError([(path.name, str(exc))]) from None
     return scene_from_dict(data, source=path.name, base_dir=path.parent)
 
 
+#: Top-level field an export writes into its ``scene.json`` (status and caution); ignored on load.
+EXPORT_STAMP_FIELD = "export_status"
+
+
 def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = None) -> Scene:
-    """Build a checked :class:`Scene` from parsed JSON; CSV formations are read from ``base_dir``."""
+    """Build a checked :class:`Scene` from parsed JSON; CSV formations are read from ``base_dir``.
+
+    A top-level :data:`EXPORT_STAMP_FIELD` object (written by exports) is ignored.
+    """
     if not isinstance(data, dict):
         raise SceneError([(source, "the top level must be a JSON object")])
+    if isinstance(data.get(EXPORT_STAMP_FIELD), dict):
+        data = {k: v for k, v in data.items() if k != EXPORT_STAMP_FIELD}
     base_dir = base_dir or Path(".")
     data = _with_csv_points(data, source, base_dir)
     try:
@@ -83,13 +93,16 @@ def dumps_compact(data: Any) -> str:
 
 def _validation_problems(exc: ValidationError, source: str) -> list[tuple[str, str]]:
     """One ``(location, reason)`` per innermost pydantic error (enclosing echoes are dropped)."""
-    found = [(_location(e["loc"]), e["msg"]) for e in exc.errors()]
+    found = [(_location(e["loc"]), e["msg"].removeprefix("Value error, ")) for e in exc.errors()]
     paths = [where for where, _ in found]
     innermost = [
         (where, why) for where, why in found
         if not any(other != where and other.startswith(where) for other in paths)
     ]
-    return [(f"{source}: {where}", why) for where, why in innermost]
+    listed = [(f"{source}: {where}", why) for where, why in innermost[:MAX_LISTED_PROBLEMS]]
+    if len(innermost) > MAX_LISTED_PROBLEMS:
+        listed.append((source, f"... and {len(innermost) - MAX_LISTED_PROBLEMS} more problems"))
+    return listed
 
 
 def _location(loc: tuple) -> str:
@@ -120,30 +133,46 @@ def _with_csv_points(data: dict, source: str, base_dir: Path) -> dict:
     return {**data, "formations": resolved}
 
 
+#: The header row a formation CSV may start with (case and spaces ignored).
+CSV_HEADERS = (["x", "y", "z"], ["x", "y", "z", "group"])
+
+
 def read_formation_csv(path: Path, where: str) -> tuple[list[list[float]], list[str] | None]:
-    """Points from a CSV of ``x,y,z`` (metres) with an optional 4th ``group`` column and an
-    optional header row. Raises :class:`SceneError` naming the file, row and problem."""
+    """Points from a ``.csv`` file of ``x,y,z`` (metres) with an optional 4th ``group`` column and an
+    optional header row ``x,y,z`` or ``x,y,z,group``. Raises :class:`SceneError` naming the file,
+    row and problem (cells are quoted only from ``.csv`` files, shortened)."""
+    path = Path(path)
+    if path.suffix.lower() != ".csv":
+        raise SceneError([(where, f"formation file {path.name!r} must be a .csv file")])
     try:
-        text = Path(path).read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise SceneError([(where, f"cannot read formation CSV {path} ({exc})")]) from None
+        text = read_text_limited(path, MAX_CSV_BYTES, encoding="utf-8-sig")
+    except UnreadableFile as exc:
+        raise SceneError([(where, f"formation CSV {path.name}: {exc}")]) from None
     points, groups = [], []
-    for row_no, row in enumerate(csv.reader(io.StringIO(text)), start=1):
+    try:
+        rows = list(csv.reader(io.StringIO(text)))
+    except csv.Error as exc:
+        raise SceneError([(f"{path.name}", f"not readable as CSV ({exc})")]) from None
+    for row_no, row in enumerate(rows, start=1):
         if not row or all(not c.strip() for c in row):
             continue
+        if not points and [c.strip().lower() for c in row] in CSV_HEADERS:
+            continue  # header
+        at = f"{path.name}: row {row_no}"
+        if len(row) not in (3, 4):
+            raise SceneError([(at, f"expected x,y,z or x,y,z,group, got {len(row)} columns")])
         try:
             xyz = [float(c) for c in row[:3]]
         except ValueError:
-            if row_no == 1:
-                continue  # header
-            raise SceneError([(f"{path}: row {row_no}", f"x,y,z must be numbers, got {row[:3]}")]) from None
-        if len(xyz) != 3 or len(row) > 4:
-            raise SceneError([(f"{path}: row {row_no}", "expected x,y,z or x,y,z,group")])
+            shown = [c.strip()[:20] for c in row[:3]]
+            raise SceneError([(at, f"x,y,z must be numbers, got {shown}")]) from None
+        if not all(math.isfinite(c) for c in xyz):
+            raise SceneError([(at, "x,y,z must be finite numbers (not nan or inf)")])
         points.append(xyz)
         groups.append(row[3].strip() if len(row) == 4 else None)
     if not points:
-        raise SceneError([(f"{path}", "no points found")])
+        raise SceneError([(f"{path.name}", "no points found")])
     has_groups = [g is not None for g in groups]
     if any(has_groups) and not all(has_groups):
-        raise SceneError([(f"{path}", "either every row or no row must have a group column")])
+        raise SceneError([(f"{path.name}", "either every row or no row must have a group column")])
     return points, (groups if all(has_groups) else None)

@@ -5,6 +5,7 @@ Used by the planner's clearance field and, independently, by the verifier's exac
 
 from __future__ import annotations
 
+import io
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
@@ -13,6 +14,8 @@ import numpy as np
 import trimesh
 
 from ..errors import SceneError
+from ..limits import MAX_COORDINATE_M, MAX_MESH_BYTES
+from ..reading import UnreadableFile, read_bytes_limited
 from .model import MeshRef, Site
 
 #: Metres per unit of each accepted ``units`` value (exact definitions of the foot and the inch).
@@ -44,36 +47,49 @@ def placement_matrix(ref: MeshRef) -> np.ndarray:
     return m
 
 
-def load_site_meshes(site: Site, base_dir: Path, source: str = "<scene>") -> tuple[SiteMesh, ...]:
-    """Load every ``site.meshes`` entry relative to ``base_dir``.
+#: Mesh file types Skyloom reads (by extension).
+MESH_TYPES = ("stl", "obj", "ply", "glb", "gltf")
 
-    Raises :class:`SceneError` naming the entry when a file is missing, unreadable or has no faces.
+
+def load_site_meshes(site: Site, base_dir: Path, source: str = "scene") -> tuple[SiteMesh, ...]:
+    """Load every ``site.meshes`` entry relative to ``base_dir``; ``source`` names the scene file.
+
+    Raises :class:`SceneError` naming the entry (``source: site.meshes[k].file``) when a file is
+    missing, too large, unreadable or has no faces. No file content is quoted.
     """
     loaded, problems = [], []
     for k, ref in enumerate(site.meshes):
-        where = f"{source}: site.meshes[{k}] ({ref.name!r})"
         try:
             loaded.append(_load_one(ref, Path(base_dir) / ref.file))
-        except SceneError as e:
-            problems += [(where, why) for _, why in e.problems]
+        except UnreadableFile as e:
+            problems.append((f"{source}: site.meshes[{k}].file", f"mesh {ref.name!r} ({ref.file}): {e}"))
     if problems:
         raise SceneError(problems)
     return tuple(loaded)
 
 
 def _load_one(ref: MeshRef, path: Path) -> SiteMesh:
+    kind = path.suffix.lower().lstrip(".")
+    if kind not in MESH_TYPES:
+        raise UnreadableFile(f"unsupported file type {path.suffix!r}; use one of {', '.join(MESH_TYPES)}")
     if not path.is_file():
-        raise SceneError([("", f"mesh file {str(path)!r} not found")])
+        raise UnreadableFile("file not found")
+    data = read_bytes_limited(path, MAX_MESH_BYTES)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            mesh = trimesh.load_mesh(str(path), process=True)
-    except Exception as e:  # trimesh raises many kinds for corrupt files
-        raise SceneError([("", f"cannot read mesh file {str(path)!r}: {type(e).__name__}: {e}")]) from None
+            if kind == "gltf":  # may reference buffers beside it: let trimesh resolve them from the path
+                mesh = trimesh.load_mesh(str(path), process=True)
+            else:
+                mesh = trimesh.load_mesh(io.BytesIO(data), file_type=kind, process=True)
+    except Exception as e:  # noqa: BLE001 - trimesh raises many kinds (even ImportError) for corrupt files
+        raise UnreadableFile(f"not a readable {kind.upper()} mesh ({type(e).__name__})") from None
     if isinstance(mesh, trimesh.Scene):
         mesh = mesh.to_geometry() if mesh.geometry else None
     if not isinstance(mesh, trimesh.Trimesh) or len(mesh.faces) == 0:
-        raise SceneError([("", f"mesh file {str(path)!r} contains no triangles")])
+        raise UnreadableFile("contains no triangles")
+    if not np.isfinite(mesh.vertices).all():
+        raise UnreadableFile("has vertices that are not finite numbers (nan or inf)")
     notes = []
     good = mesh.nondegenerate_faces()
     if not good.all():
@@ -81,6 +97,8 @@ def _load_one(ref: MeshRef, path: Path) -> SiteMesh:
         mesh.update_faces(good)
         mesh.remove_unreferenced_vertices()
     mesh.apply_transform(placement_matrix(ref))
+    if np.abs(mesh.vertices).max() > MAX_COORDINATE_M:
+        raise UnreadableFile(f"reaches beyond ±{MAX_COORDINATE_M:g} m once placed (check units and scale)")
     if not mesh.is_watertight:
         notes.append("mesh is not watertight: only its surface is an obstacle (its inside is not known)")
     return SiteMesh(ref.name, mesh, tuple(notes))

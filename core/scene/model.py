@@ -5,6 +5,7 @@ Units everywhere: metres, seconds, m/s, m/s². Positions are ``(x, y, z)`` with 
 
 from __future__ import annotations
 
+import re
 from functools import cached_property
 from typing import Annotated, Literal
 
@@ -12,14 +13,63 @@ import numpy as np
 from pydantic import AfterValidator, ConfigDict, Field
 from pydantic.dataclasses import dataclass
 
+from ..limits import (
+    MAX_ACCELERATION_M_S2,
+    MAX_COORDINATE_M,
+    MAX_DRONE_TYPES,
+    MAX_DURATION_S,
+    MAX_FORMATIONS,
+    MAX_MESH_SCALE,
+    MAX_RADIUS_M,
+    MAX_ROTATION_DEG,
+    MAX_SPEED_M_S,
+    MAX_TRANSITIONS,
+)
 from ..smoothing.terms import parse_objective
 
 _STRICT = ConfigDict(extra="forbid", frozen=True)
 
-Vec3 = tuple[float, float, float]
-Positive = Annotated[float, Field(gt=0)]
-NonNegative = Annotated[float, Field(ge=0)]
-Name = Annotated[str, Field(min_length=1, max_length=80)]
+
+def _finite(**bounds) -> object:
+    """A float field that accepts JSON numbers only (no strings, no booleans), finite, within ``bounds``."""
+    return Annotated[float, Field(strict=True, allow_inf_nan=False, **bounds)]
+
+
+def _integer(**bounds) -> object:
+    """An integer field that accepts JSON integers only, within ``bounds``."""
+    return Annotated[int, Field(strict=True, **bounds)]
+
+
+Coordinate = _finite(ge=-MAX_COORDINATE_M, le=MAX_COORDINATE_M)
+Vec3 = tuple[Coordinate, Coordinate, Coordinate]
+Radius = _finite(ge=0.005, le=MAX_RADIUS_M)
+Margin = _finite(ge=0.0, le=MAX_RADIUS_M)
+Speed = _finite(ge=0.01, le=MAX_SPEED_M_S)
+Acceleration = _finite(ge=0.01, le=MAX_ACCELERATION_M_S2)
+Seconds = _finite(gt=0.0, le=MAX_DURATION_S)
+Hold = _finite(ge=0.0, le=MAX_DURATION_S)
+Angle = _finite(ge=-MAX_ROTATION_DEG, le=MAX_ROTATION_DEG)
+
+#: Drone ids and group labels become file names and CSV cells: letters, digits, ``_``, ``-``, ``.``,
+#: starting with a letter or digit, at most 64 characters.
+SAFE_ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
+
+
+def _safe_id(text: str) -> str:
+    if not SAFE_ID.fullmatch(text):
+        raise ValueError(f"{text!r} is not a valid id: use 1-64 letters, digits, '_', '-' or '.', starting with a "
+                         "letter or digit (ids become file names and CSV cells)")
+    return text
+
+
+def _printable(text: str) -> str:
+    if not text.isprintable():
+        raise ValueError(f"{text!r} contains a line break, tab or other control character")
+    return text
+
+
+Name = Annotated[str, Field(strict=True, min_length=1, max_length=80), AfterValidator(_printable)]
+SafeId = Annotated[str, Field(strict=True), AfterValidator(_safe_id)]
 
 SCENE_FORMAT = "skyloom-scene"
 SCENE_VERSION = 1
@@ -55,10 +105,10 @@ class MeshRef:
     """
 
     name: Name
-    file: Annotated[str, Field(min_length=1)]
+    file: Annotated[str, Field(strict=True, min_length=1, max_length=1000), AfterValidator(_printable)]
     units: Literal["m", "cm", "mm", "ft", "in"] = "m"
-    scale: Positive = 1.0
-    rotate_deg: Vec3 = (0.0, 0.0, 0.0)
+    scale: _finite(gt=0.0, le=MAX_MESH_SCALE) = 1.0
+    rotate_deg: tuple[Angle, Angle, Angle] = (0.0, 0.0, 0.0)
     translate: Vec3 = (0.0, 0.0, 0.0)
 
 
@@ -81,12 +131,12 @@ class DroneType:
     """
 
     name: Name
-    radius_xy: Positive
-    radius_z: Positive
-    max_speed_xy: Positive
-    max_speed_z: Positive
-    max_acceleration: Positive
-    tracking_margin: NonNegative = 0.0
+    radius_xy: Radius
+    radius_z: Radius
+    max_speed_xy: Speed
+    max_speed_z: Speed
+    max_acceleration: Acceleration
+    tracking_margin: Margin = 0.0
 
     @property
     def semi_axes(self) -> np.ndarray:
@@ -97,13 +147,15 @@ class DroneType:
 
 @dataclass(config=_STRICT)
 class Drone:
-    id: Name
+    """One aircraft: ``id`` follows :data:`SAFE_ID`; ``type`` names a :class:`DroneType`."""
+
+    id: SafeId
     type: Name
 
 
 @dataclass(config=_STRICT)
 class Fleet:
-    types: Annotated[tuple[DroneType, ...], Field(min_length=1)]
+    types: Annotated[tuple[DroneType, ...], Field(min_length=1, max_length=MAX_DRONE_TYPES)]
     drones: Annotated[tuple[Drone, ...], Field(min_length=1)]
 
     @cached_property
@@ -137,8 +189,8 @@ class Formation:
 
     name: Name
     points: Annotated[tuple[Vec3, ...], Field(min_length=1)]
-    groups: tuple[Name, ...] | None = None
-    csv: str | None = None
+    groups: tuple[SafeId, ...] | None = None
+    csv: Annotated[str, Field(strict=True, max_length=1000), AfterValidator(_printable)] | None = None
 
     @cached_property
     def positions(self) -> np.ndarray:
@@ -155,15 +207,15 @@ class Transition:
 
     to: Name
     assignment: AssignmentMode = "unlabeled"
-    duration: Positive | Literal["fastest"] = "fastest"
-    hold: NonNegative = 0.0
+    duration: Seconds | Literal["fastest"] = "fastest"
+    hold: Hold = 0.0
 
 
 @dataclass(config=_STRICT)
 class Timeline:
     start: Name
-    transitions: Annotated[tuple[Transition, ...], Field(min_length=1)]
-    start_hold: NonNegative = 0.0
+    transitions: Annotated[tuple[Transition, ...], Field(min_length=1, max_length=MAX_TRANSITIONS)]
+    start_hold: Hold = 0.0
 
 
 def _objective_text(text: str) -> str:
@@ -179,25 +231,25 @@ class PlannerSettings:
     rest is headroom for the verifier's tolerance and for tracking (common practice, no source).
     """
 
-    degree: Annotated[int, Field(ge=5, le=15)] = 9
+    degree: _integer(ge=5, le=15) = 9
     profile: Literal["min_snap", "min_jerk"] = "min_snap"
-    limit_margin: Annotated[float, Field(gt=0.5, le=1.0)] = 0.95
+    limit_margin: _finite(gt=0.5, le=1.0) = 0.95
     #: Roadmap (used where straight lines are blocked): free-space samples drawn, neighbours tried
     #: per vertex, spanner stretch factor, sampler seed.
-    roadmap_samples: Annotated[int, Field(ge=50, le=200_000)] = 1500
-    roadmap_neighbours: Annotated[int, Field(ge=3, le=64)] = 12
-    spanner_stretch: Annotated[float, Field(ge=1.0, le=10.0)] = 1.5
-    roadmap_seed: Annotated[int, Field(ge=0)] = 0
+    roadmap_samples: _integer(ge=50, le=200_000) = 1500
+    roadmap_neighbours: _integer(ge=3, le=64) = 12
+    spanner_stretch: _finite(ge=1.0, le=10.0) = 1.5
+    roadmap_seed: _integer(ge=0, le=2**32 - 1) = 0
     #: Voxel pitch of the planner's obstacle field, in clearance radii (error bound ≈ 2 × pitch).
-    obstacle_pitch: Annotated[float, Field(ge=0.05, le=1.0)] = 0.2
+    obstacle_pitch: _finite(ge=0.05, le=1.0) = 0.2
     #: Multi-agent search: suboptimality factor w ≥ 1 (sum of costs ≤ w × optimal), time limit (s).
-    suboptimality: Annotated[float, Field(ge=1.0, le=10.0)] = 2.0
-    search_time_limit: Annotated[float, Field(gt=0.0, le=3600.0)] = 60.0
+    suboptimality: _finite(ge=1.0, le=10.0) = 2.0
+    search_time_limit: _finite(gt=0.0, le=3600.0) = 60.0
     #: Smoothing of roadmap plans: on/off, most QP rounds, objective (a name or term weights, see
     #: :func:`core.smoothing.terms.parse_objective`).
-    smoothing: bool = True
-    smoothing_iterations: Annotated[int, Field(ge=1, le=50)] = 3
-    objective: Annotated[str, AfterValidator(_objective_text)] = "snap"
+    smoothing: Annotated[bool, Field(strict=True)] = True
+    smoothing_iterations: _integer(ge=1, le=50) = 3
+    objective: Annotated[str, Field(strict=True, max_length=200), AfterValidator(_objective_text)] = "snap"
 
 
 @dataclass(config=_STRICT, kw_only=True)
@@ -207,10 +259,10 @@ class Scene:
     format: Literal["skyloom-scene"] = SCENE_FORMAT
     version: Literal[1] = SCENE_VERSION
     name: Name
-    description: str = ""
+    description: Annotated[str, Field(strict=True, max_length=10_000)] = ""
     site: Site
     fleet: Fleet
-    formations: Annotated[tuple[Formation, ...], Field(min_length=1)]
+    formations: Annotated[tuple[Formation, ...], Field(min_length=1, max_length=MAX_FORMATIONS)]
     timeline: Timeline
     planner: PlannerSettings = PlannerSettings()
 

@@ -39,7 +39,7 @@ def spec_from_scene(scene: Scene, base_dir: Path | None = None, meshes: tuple[Si
     boxes, obstacle meshes). Meshes are read from ``base_dir`` (the folder mesh paths are relative
     to) unless already loaded ones are passed as ``meshes``."""
     if meshes is None:
-        meshes = load_site_meshes(scene.site, Path(base_dir or "."), scene.name) if scene.site.meshes else ()
+        meshes = load_site_meshes(scene.site, Path(base_dir or "."), "scene.json") if scene.site.meshes else ()
     return VerificationSpec(
         drone_ids=scene.fleet.ids,
         semi_axes=scene.fleet.semi_axes,
