@@ -373,3 +373,17 @@ def test_planning_errors_are_readable_messages(qtbot, document):
     qtbot.waitUntil(lambda: not runner.running, timeout=60_000)
     assert "too short" in messages[-1] and "Traceback" not in messages[-1]
     assert document.plan is None  # nothing half-made was shown
+
+
+def test_an_error_escaping_a_slot_is_logged_not_printed(qtbot, capsys, monkeypatch):
+    from app import main
+    shown = []
+    monkeypatch.setattr(main.QMessageBox, "critical", lambda *args: shown.append(args[2]))
+    try:
+        raise ZeroDivisionError("deliberate")
+    except ZeroDivisionError as exc:
+        main.report_unexpected(type(exc), exc, exc.__traceback__)
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and "internal error in the designer (ZeroDivisionError)" in err
+    log = Path(shown[0].rsplit("\n", 1)[1])
+    assert "Traceback" in log.read_text() and "deliberate" in log.read_text()

@@ -21,7 +21,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from conftest import ROOT
+from conftest import ROOT, scene_dict
 from core.cli import main
 from core.reading import file_sha256
 
@@ -458,31 +458,10 @@ def test_check_verifies_mesh_copies_against_their_digests(tmp_path, capsys):
     import trimesh
 
     trimesh.creation.box((1.0, 1.0, 1.0)).export(tmp_path / "post.stl")
-    data = {
-        "name": "post",
-        "site": {
-            "flight_volume": {"lower": [-10, -10, 0], "upper": [10, 10, 10]},
-            "meshes": [{"name": "post", "file": "post.stl", "translate": [6, 6, 0.5]}],
-        },
-        "fleet": {
-            "types": [
-                {
-                    "name": "q",
-                    "radius_xy": 0.2,
-                    "radius_z": 0.5,
-                    "max_speed_xy": 2,
-                    "max_speed_z": 1,
-                    "max_acceleration": 2,
-                }
-            ],
-            "drones": [{"id": "a", "type": "q"}, {"id": "b", "type": "q"}],
-        },
-        "formations": [
-            {"name": "low", "points": [[-2, 0, 1], [2, 0, 1]]},
-            {"name": "high", "points": [[-2, 0, 4], [2, 0, 4]]},
-        ],
-        "timeline": {"start": "low", "transitions": [{"to": "high", "assignment": "labeled"}]},
-    }
+    low, high = np.array([[-2.0, 0, 1], [2.0, 0, 1]]), np.array([[-2.0, 0, 4], [2.0, 0, 4]])
+    data = scene_dict({"low": low, "high": high}, [{"to": "high", "assignment": "labeled"}],
+                      volume=((-10, -10, 0), (10, 10, 10)))
+    data["site"]["meshes"] = [{"name": "post", "file": "post.stl", "translate": [6, 6, 0.5]}]
     (tmp_path / "post.json").write_text(json.dumps(data))
     out = tmp_path / "out"
     assert run(["plan", tmp_path / "post.json", "--out", out, "--quiet", "--workers", "1"], capsys)[0] == 0
@@ -505,29 +484,9 @@ def _cache_entry() -> Path:
 
 def _swap_scene(tmp_path: Path) -> Path:
     """Two drones swapping places: straight lines collide, so the roadmap (and its cache) is used."""
-    data = {
-        "name": "swap",
-        "site": {"flight_volume": {"lower": [-6, -6, 0], "upper": [6, 6, 6]}},
-        "fleet": {
-            "types": [
-                {
-                    "name": "q",
-                    "radius_xy": 0.2,
-                    "radius_z": 0.5,
-                    "max_speed_xy": 2,
-                    "max_speed_z": 1,
-                    "max_acceleration": 2,
-                }
-            ],
-            "drones": [{"id": "a", "type": "q"}, {"id": "b", "type": "q"}],
-        },
-        "formations": [
-            {"name": "p", "points": [[-3, 0, 2], [3, 0, 2]]},
-            {"name": "q", "points": [[3, 0, 2], [-3, 0, 2]]},
-        ],
-        "timeline": {"start": "p", "transitions": [{"to": "q", "assignment": "labeled"}]},
-        "planner": {"roadmap_samples": 300, "smoothing": False},
-    }
+    p, q = np.array([[-3.0, 0, 2], [3.0, 0, 2]]), np.array([[3.0, 0, 2], [-3.0, 0, 2]])
+    data = scene_dict({"p": p, "q": q}, [{"to": "q", "assignment": "labeled"}], volume=((-6, -6, 0), (6, 6, 6)))
+    data["planner"] = {"roadmap_samples": 300, "smoothing": False}
     (tmp_path / "swap.json").write_text(json.dumps(data))
     return tmp_path / "swap.json"
 
@@ -657,3 +616,15 @@ def test_any_mutated_scene_is_planned_or_refused_cleanly(changes, earlier_export
         assert code in (0, 1, 2), text
         assert snapshot(folder) == before
         assert run(["check", folder / "show", "--quiet"], capsys)[0] == 0
+
+
+def test_a_goal_boxed_in_by_keep_out_walls_is_named(tmp_path, capsys):
+    """Six keep-out walls enclose a hollow 3 m cube around the second goal point: no drone can reach it."""
+    walls = [((-2, -2, 0.0), (2, 2, 0.5)), ((-2, -2, 3.5), (2, 2, 4.0)), ((-2, -2, 0), (-1.5, 2, 4)),
+             ((1.5, -2, 0), (2, 2, 4)), ((-2, -2, 0), (2, -1.5, 4)), ((-2, 1.5, 0), (2, 2, 4))]
+    start, goal = np.array([[-6.0, -6, 2], [6.0, -6, 2]]), np.array([[-6.0, 6, 2], [0.0, 0, 2]])
+    data = scene_dict({"start": start, "goal": goal}, [{"to": "goal"}], volume=((-8, -8, 0), (8, 8, 6)), keep_out=walls)
+    data["planner"] = {"roadmap_samples": 400, "smoothing": False}
+    (tmp_path / "boxed.json").write_text(json.dumps(data))
+    code, text = run(["plan", tmp_path / "boxed.json", "--out", tmp_path / "out", "--quiet", "--workers", "1"], capsys)
+    assert code == 2 and "formations[1] ('goal').points[1] at (0.00, 0.00, 2.00)" in text, text
