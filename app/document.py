@@ -165,7 +165,7 @@ class Document(QObject):
         plan is replaced only here, after a plan succeeded."""
         self.plan = result
         self.approaches = approaches if approaches is not None else \
-            closest_approaches(result.trajectory, result.scene.fleet.semi_axes)
+            closest_approaches(result.trajectory, result.scene.fleet.clearance)
         self.time = min(self.time, result.trajectory.duration)
         self.plan_changed.emit()
         self.time_changed.emit(self.time)

@@ -22,6 +22,7 @@ from PySide6.QtWidgets import (
 )
 
 from core.clearance import ClearanceModel
+from core.scene.checks import crowded_points
 
 from . import palette
 from .document import Document
@@ -32,11 +33,12 @@ DRAG_MERGE_BASE = 1000
 PICK_PIXELS = 8.0
 
 
-def too_close(points: np.ndarray, pair_radii: np.ndarray) -> np.ndarray:
-    """Mask ``(n,)`` of points whose ratio to another point is < 1 under ``pair_radii`` ``(3,)``."""
+def too_close(points: np.ndarray, clearance: ClearanceModel) -> np.ndarray:
+    """Mask ``(n,)`` of points closer to another point than the scene loader allows
+    (:func:`core.scene.checks.crowded_points`)."""
     if len(points) < 2:
         return np.zeros(len(points), dtype=bool)
-    pairs, _ = ClearanceModel(np.tile(pair_radii / 2, (len(points), 1))).close_pairs(points, 1.0)
+    pairs, _ = crowded_points(points, clearance)
     mask = np.zeros(len(points), dtype=bool)
     mask[pairs.ravel()] = True
     return mask
@@ -194,9 +196,6 @@ class LayoutView(QWidget):
         p[plot.axes[0]], p[plot.axes[1]] = self.snapped(x), self.snapped(y)
         return p
 
-    def _pair_radii(self) -> np.ndarray:
-        return 2.0 * self.document.scene.fleet.semi_axes.max(axis=0)
-
     # --- events ------------------------------------------------------------------------------
     def _formation_chosen(self, _name: str) -> None:
         self.selected = set()
@@ -206,7 +205,7 @@ class LayoutView(QWidget):
         f = self.formation
         points = f.positions
         self.selected = {k for k in self.selected if k < len(points)}
-        close = too_close(points, self._pair_radii())
+        close = too_close(points, self.document.scene.fleet.clearance)
         for plot in (self.top, self.side):
             plot.show_points(points, self.selected, close)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)

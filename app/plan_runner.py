@@ -38,7 +38,7 @@ class _PlanJob(QObject):
             self.failed.emit(f"internal error ({type(exc).__name__}); this is a bug, please report it with the scene "
                              f"file and the log file {log}")
         else:  # the close approaches are sampled here too, off the GUI thread
-            self.finished.emit(result, closest_approaches(result.trajectory, result.scene.fleet.semi_axes))
+            self.finished.emit(result, closest_approaches(result.trajectory, result.scene.fleet.clearance))
 
 
 class PlanRunner(QObject):

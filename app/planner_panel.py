@@ -7,7 +7,7 @@ from dataclasses import replace
 
 from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QSpinBox, QWidget
 
-from core.smoothing.terms import OBJECTIVES
+from core.objectives import OBJECTIVES
 
 from .document import Document
 

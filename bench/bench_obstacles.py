@@ -12,7 +12,6 @@ from pathlib import Path
 
 import numpy as np
 
-from core.clearance import ClearanceModel
 from core.obstacles import ClearanceField
 from core.pipeline import plan
 from core.roadmap.build import RoadmapSettings, build_roadmap
@@ -46,15 +45,15 @@ def _loop_distance(p0, p1, q0, q1) -> float:
 def roadmap_benchmark(samples: int = 2600) -> None:
     scene = load_scene(SAMPLES / "courtyard_swap.json")
     axes = scene.fleet.semi_axes.max(axis=0)
-    scale = ClearanceModel(scene.fleet.semi_axes).bound_radii
+    pair_envelope = scene.fleet.clearance.pair_envelope
     t0 = time.perf_counter()
     field = ClearanceField(axes, load_site_meshes(scene.site, SAMPLES), scene.site.flight_volume.bounds)
     t_field = time.perf_counter() - t0
     t0 = time.perf_counter()
-    roadmap = build_roadmap(field, scale, RoadmapSettings(samples=samples))
+    roadmap = build_roadmap(field, pair_envelope, RoadmapSettings(samples=samples))
     t_build = time.perf_counter() - t0
     t0 = time.perf_counter()
-    conflicts = annotate(roadmap.vertices, roadmap.edges, scale)
+    conflicts = annotate(roadmap.vertices, roadmap.edges, pair_envelope)
     t_annotate = time.perf_counter() - t0
     print(f"roadmap ({scene.name}): {roadmap.n_vertices} vertices, {len(roadmap.edges)} edges, "
           f"{conflicts.count} conflicting pairs")
@@ -64,7 +63,7 @@ def roadmap_benchmark(samples: int = 2600) -> None:
     sub_e = roadmap.edges[:400]
     keep, local_edges = np.unique(sub_e, return_inverse=True)
     local_edges = local_edges.reshape(-1, 2)
-    p = roadmap.vertices[keep] / scale
+    p = roadmap.vertices[keep] / pair_envelope
     segs = [(v, v) for v in p.tolist()] + [(p[a].tolist(), p[b].tolist()) for a, b in local_edges]
     t0 = time.perf_counter()
     loop = sum(_loop_distance(*segs[i], *segs[j]) < 1.0 for i in range(len(segs)) for j in range(i + 1, len(segs)))
@@ -72,7 +71,7 @@ def roadmap_benchmark(samples: int = 2600) -> None:
     reps = 20
     t0 = time.perf_counter()
     for _ in range(reps):
-        vec = annotate(roadmap.vertices[keep], local_edges, scale)
+        vec = annotate(roadmap.vertices[keep], local_edges, pair_envelope)
     t_vec = (time.perf_counter() - t0) / reps
     print(f"  annotation subset ({len(segs)} actions, {len(segs) * (len(segs) - 1) // 2} pairs): loop {t_loop:.2f} s "
           f"({loop} conflicts), vectorised {t_vec * 1000:.1f} ms ({vec.count} conflicts) → "

@@ -57,20 +57,20 @@ def min_sum_of_squares(starts: np.ndarray, goals: np.ndarray, *, progress: Progr
     return Assignment(goal_of, total, method, gap)
 
 
-def assign(mode: str, starts: np.ndarray, goals: np.ndarray, scale: np.ndarray,
+def assign(mode: str, starts: np.ndarray, goals: np.ndarray, pair_envelope: np.ndarray,
            start_groups=None, goal_groups=None, *, progress: ProgressCallback = no_progress,
            cancel: CancelToken | None = None) -> Assignment:
     """Goal index per drone for a transition.
 
     starts : (N, 3) current drone positions (metres), drone order
     goals : (N, 3) target formation points
-    scale : (3,) metres per unit of the clearance metric (distances are divided by it)
+    pair_envelope : (3,) metres per unit of the clearance metric (distances are divided by it)
     start_groups / goal_groups : (N,) group labels of each drone's current point / each goal point
     """
     n = len(starts)
     if mode == "labeled":
-        return Assignment(np.arange(n), float((((starts - goals) / scale) ** 2).sum()), "labeled", 0.0)
-    xs, gs = starts / scale, goals / scale
+        return Assignment(np.arange(n), float((((starts - goals) / pair_envelope) ** 2).sum()), "labeled", 0.0)
+    xs, gs = starts / pair_envelope, goals / pair_envelope
     if mode == "unlabeled":
         return min_sum_of_squares(xs, gs, progress=progress, cancel=cancel)
     if mode != "grouped":

@@ -30,9 +30,11 @@ def pair_radii(axes_i: np.ndarray, axes_j: np.ndarray) -> np.ndarray:
 class ClearanceModel:
     """Pairwise separation for a fleet whose drone ``i`` has half-axes ``semi_axes[i]`` ``(N, 3)``.
 
-    ``bound_radii`` ``(3,)`` is the largest pair half-axis per axis over the fleet; distances in
-    coordinates divided by it never exceed the exact ratio, so KD-tree searches in those
-    coordinates find a superset of the close pairs, which :meth:`ratio` then measures exactly.
+    Built once per fleet (:attr:`core.scene.model.Fleet.clearance`) and passed to every stage.
+    ``envelope`` ``(3,)`` m is the largest half-axis of any drone per axis (the shape obstacles are
+    kept from); ``pair_envelope`` ``(3,)`` m is the largest pair half-axis per axis over the fleet:
+    distances in coordinates divided by it never exceed the exact ratio, so KD-tree searches in
+    those coordinates find a superset of the close pairs, which :meth:`ratio` then measures exactly.
     """
 
     def __init__(self, semi_axes: np.ndarray):
@@ -42,12 +44,9 @@ class ClearanceModel:
         k = len(kinds)
         ii, jj = np.meshgrid(np.arange(k), np.arange(k), indexing="ij")
         self._kind_pair_radii = pair_radii(kinds[ii.ravel()], kinds[jj.ravel()]).reshape(k, k, 3)
-        self.bound_radii = self._kind_pair_radii.reshape(-1, 3).max(axis=0)
+        self.pair_envelope = self._kind_pair_radii.reshape(-1, 3).max(axis=0)
+        self.envelope = kinds.max(axis=0)
         self.homogeneous = k == 1
-
-    @property
-    def n_drones(self) -> int:
-        return len(self.semi_axes)
 
     def radii(self, i: np.ndarray, j: np.ndarray) -> np.ndarray:
         """Pair half-axes ``(M, 3)`` for drone index arrays ``i``, ``j`` ``(M,)``."""
@@ -58,8 +57,8 @@ class ClearanceModel:
         return np.linalg.norm((pos_i - pos_j) / self.radii(i, j), axis=-1)
 
     def scaled(self, positions: np.ndarray) -> np.ndarray:
-        """Positions ``(..., 3)`` divided by :attr:`bound_radii` (the KD-tree coordinates)."""
-        return np.asarray(positions, dtype=np.float64) / self.bound_radii
+        """Positions ``(..., 3)`` divided by :attr:`pair_envelope` (the KD-tree coordinates)."""
+        return np.asarray(positions, dtype=np.float64) / self.pair_envelope
 
     def neighbourhood(self, positions: np.ndarray, below: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """One KD-tree pass over ``positions`` ``(N, 3)``.

@@ -13,8 +13,6 @@ from .crash_log import write_crash_log
 from .errors import Cancelled, SkyloomError
 from .export import audit_export, export_plan, inspect_target, load_export
 from .limits import MAX_SAMPLE_RATE_HZ, MAX_WORKERS
-from .pipeline import plan, with_settings
-from .plan_summary import plan_summary_lines
 from .progress import no_progress
 from .scene import load_scene
 from .terminal_progress import TerminalProgress
@@ -143,6 +141,9 @@ def _progress(args):
 
 
 def _plan(args) -> int:
+    from .pipeline import plan, with_settings  # here, so that check/info never load the planner
+    from .plan_summary import plan_summary_lines
+
     scene = load_scene(args.scene)
     inspect_target(args.out.absolute(), [args.scene])  # refuse a target before minutes of planning
     progress = _progress(args)

@@ -9,7 +9,7 @@ import traceback
 from pathlib import Path
 
 from . import __version__
-from .roadmap.cache import cache_dir
+from .paths import cache_dir
 
 
 def write_crash_log(context: str, error: BaseException) -> str:

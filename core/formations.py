@@ -36,9 +36,3 @@ def sphere(n: int, radius: float, center=(0.0, 0.0, 0.0)) -> np.ndarray:
     azimuth = np.pi * (1 + 5**0.5) * i
     unit = np.c_[np.cos(azimuth) * np.sin(polar), np.sin(azimuth) * np.sin(polar), np.cos(polar)]
     return np.asarray(center, dtype=np.float64) + radius * unit
-
-
-def min_spacing_sphere_radius(n: int, spacing: float) -> float:
-    """Sphere radius at which :func:`sphere` points are about ``spacing`` metres apart
-    (area per point ≈ spacing², a rule of thumb: common practice, no source)."""
-    return spacing * np.sqrt(n / (4 * np.pi)) * 1.1

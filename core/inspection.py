@@ -41,11 +41,10 @@ def motion_curves(traj: FleetTrajectory, drones: np.ndarray, times: np.ndarray) 
     return out
 
 
-def closest_approaches(traj: FleetTrajectory, semi_axes: np.ndarray, band: float = APPROACH_BAND,
+def closest_approaches(traj: FleetTrajectory, clearance: ClearanceModel, band: float = APPROACH_BAND,
                        times: np.ndarray | None = None) -> list[Approach]:
     """Per pair whose sampled separation ratio falls below ``band``, its smallest sampled ratio and
-    when (sorted by ratio). ``semi_axes`` ``(N, 3)`` m; ``times`` default :func:`sample_times`."""
-    clearance = ClearanceModel(semi_axes)
+    when (sorted by ratio), under the fleet's ``clearance``; ``times`` default :func:`sample_times`."""
     times = sample_times(traj) if times is None else times
     positions = traj.evaluate(times)  # (T, N, 3)
     best: dict[tuple[int, int], tuple[float, float]] = {}

@@ -17,8 +17,8 @@ import numpy as np
 import trimesh
 
 from .assignment import Assignment, assign_by_cost
-from .clearance import ClearanceModel
 from .errors import PlanningError, SceneError
+from .objectives import parse_objective
 from .obstacles import ClearanceField
 from .progress import CancelToken, ProgressCallback, no_progress
 from .roadmap.build import RoadmapSettings, attach_points, build_roadmap
@@ -29,7 +29,7 @@ from .scene.meshes import SiteMesh, load_site_meshes
 from .scene.model import PlannerSettings, Scene
 from .search import SearchFailed, ecbs
 from .smoothing.smoother import SmoothingOptions, smooth_transition
-from .smoothing.terms import parse_objective, trajectory_cost
+from .smoothing.terms import trajectory_cost
 from .straight_line import straight_leg_points
 from .timing import MIN_TRANSITION_DURATION, Profile, minimum_duration
 from .trajectory import FleetTrajectory
@@ -51,8 +51,8 @@ class ObstaclePlanner:
         self.scene, self.settings, self.base_dir, self.executor = scene, settings, Path(base_dir), executor
         self.source = source  # the scene file's name, for messages
         self.use_cache, self.progress, self.cancel = use_cache, progress, cancel or CancelToken()
-        self.envelope = scene.fleet.semi_axes.max(axis=0)
-        self.pair_scale = ClearanceModel(scene.fleet.semi_axes).bound_radii
+        self.clearance = scene.fleet.clearance
+        self.envelope, self.pair_envelope = self.clearance.envelope, self.clearance.pair_envelope
         self.stats: dict[str, object] = {}
         self.seconds: dict[str, float] = {}
 
@@ -88,8 +88,8 @@ class ObstaclePlanner:
         field = self.field
         t0 = time.perf_counter()
         base, cached, cache_warnings = cached_roadmap(
-            roadmap_key(field, self.pair_scale, rs),
-            lambda: build_roadmap(field, self.pair_scale, rs, progress=self.progress, cancel=self.cancel),
+            roadmap_key(field, self.pair_envelope, rs),
+            lambda: build_roadmap(field, self.pair_envelope, rs, progress=self.progress, cancel=self.cancel),
             self.use_cache)
         self.stats.setdefault("warnings", []).extend(cache_warnings)
         self.seconds["roadmap"] = time.perf_counter() - t0
@@ -97,7 +97,7 @@ class ObstaclePlanner:
         formations = self.scene.formations
         points = np.concatenate([f.positions for f in formations])
         self._check_points_in_field(points)
-        full, index = attach_points(base, points, field, self.pair_scale, s.roadmap_neighbours)
+        full, index = attach_points(base, points, field, self.pair_envelope, s.roadmap_neighbours)
         self.seconds["roadmap attach"] = time.perf_counter() - t0
         splits = np.cumsum([len(f.positions) for f in formations])[:-1]
         self.stats.update(roadmap_cached=cached, roadmap_vertices=full.n_vertices, roadmap_edges=len(full.edges),
@@ -147,7 +147,7 @@ class ObstaclePlanner:
                                 "samples, or fewer drones through the narrowest passage.") from None
         self.seconds["search"] = self.seconds.get("search", 0.0) + time.perf_counter() - t0
         positions = _step_positions(roadmap, result.paths)
-        conflicts = check_discrete_plan(positions, self.scene.fleet.semi_axes)
+        conflicts = check_discrete_plan(positions, self.clearance)
         if conflicts:
             c = conflicts[0]
             raise PlanningError(f"{where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
@@ -172,7 +172,7 @@ class ObstaclePlanner:
         s = self.settings
         options = SmoothingOptions(s.degree, s.smoothing_iterations, parse_objective(s.objective))
         t0 = time.perf_counter()
-        outcome = smooth_transition(where, positions, ClearanceModel(self.scene.fleet.semi_axes), self.envelope,
+        outcome = smooth_transition(where, positions, self.clearance, self.envelope,
                                     self.field, limits, spec, options, self.executor, progress=self.progress,
                                     cancel=self.cancel)
         self.seconds["smoothing"] = self.seconds.get("smoothing", 0.0) + time.perf_counter() - t0

@@ -16,7 +16,6 @@ import numpy as np
 from pydantic import ValidationError
 
 from .assignment import Assignment, assign
-from .clearance import ClearanceModel
 from .errors import PlanningError, SceneError
 from .executors import plan_executor
 from .obstacle_planning import ObstaclePlanner
@@ -92,8 +91,7 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
                             f"(needs at least {profile.degree})")
     limits = scene.fleet.limits * settings.limit_margin
-    clearance = ClearanceModel(scene.fleet.semi_axes)
-    scale = clearance.bound_radii
+    clearance = scene.fleet.clearance
     obstacles = ObstaclePlanner(scene, settings, base_dir, executor, use_cache=use_cache, progress=progress,
                                 cancel=cancel, source=source)
     spec = spec_from_scene(scene, meshes=obstacles.meshes)  # meshes read (and checked) once, before planning
@@ -116,7 +114,7 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
         where = f"timeline.transitions[{k}] ({current.name} → {target.name})"
         start_groups = None if current.groups is None else np.asarray(current.groups)[occupied]
         t0 = time.perf_counter()
-        chosen = assign(tr.assignment, positions, target.positions, scale, start_groups,
+        chosen = assign(tr.assignment, positions, target.positions, clearance.pair_envelope, start_groups,
                         target.groups, progress=progress, cancel=cancel)
         timings["assignment"] += time.perf_counter() - t0
         t0 = time.perf_counter()
@@ -127,7 +125,7 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
         needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
         leg_points = straight_leg_points(positions, goals, profile, settings.degree)
         guarantee = clearance.homogeneous and tr.assignment == "unlabeled" \
-            and synchronized_spacing_holds(positions, goals, scale)
+            and synchronized_spacing_holds(positions, goals, clearance.pair_envelope)
         # On a shared time profile the relative motion does not depend on the duration.
         if obstacles.legs_clear(positions, goals) and (guarantee or _separated(leg_points, needed, spec)):
             slowest = int(np.argmax(per_drone))

@@ -3,7 +3,10 @@ shared by the terminal, the export's report and the GUI."""
 
 from __future__ import annotations
 
-from .pipeline import PlanResult
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # the summary reads a plan; it needs no planning code
+    from .pipeline import PlanResult
 
 
 def plan_summary_lines(result: PlanResult) -> list[str]:

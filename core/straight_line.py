@@ -24,11 +24,12 @@ def hold_points(positions: np.ndarray, degree: int) -> np.ndarray:
     return np.repeat(positions[:, None, :], degree + 1, axis=1)
 
 
-def synchronized_spacing_holds(starts: np.ndarray, goals: np.ndarray, scale: np.ndarray) -> bool:
+def synchronized_spacing_holds(starts: np.ndarray, goals: np.ndarray, pair_envelope: np.ndarray) -> bool:
     """True when starts and goals are each pairwise at least √2 apart in coordinates divided by the
-    pair radii ``scale`` (3,) — with a minimum-sum-of-squares assignment, synchronized straight
+    pair radii ``pair_envelope`` (3,) — with a minimum-sum-of-squares assignment, synchronized straight
     lines then keep every pair at ratio ≥ 1 (Turpin, Michael & Kumar, IJRR 2014)."""
     def spaced(points):
-        return len(points) < 2 or cKDTree(points / scale).query(points / scale, k=2)[0][:, 1].min() >= np.sqrt(2)
+        scaled = points / pair_envelope
+        return len(points) < 2 or cKDTree(scaled).query(scaled, k=2)[0][:, 1].min() >= np.sqrt(2)
 
     return bool(spaced(starts) and spaced(goals))

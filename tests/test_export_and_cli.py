@@ -160,6 +160,21 @@ def test_core_never_imports_qt():
     subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)
 
 
+def test_check_and_export_load_no_planning_module(lab_result, tmp_path):
+    """`skyloom check` re-verifies a folder with the verifier alone: no planner, no QP solver."""
+    out = export_plan(lab_result, tmp_path / "out")
+    code = ("import sys\n"
+            "from core.cli import main\n"
+            f"assert main(['check', {str(out)!r}, '--quiet']) == 0\n"
+            "import core.export\n"
+            "planning = ('core.pipeline', 'core.obstacle_planning', 'core.smoothing', 'core.search', 'core.roadmap',\n"
+            "            'core.obstacles', 'core.assignment', 'core.auction', 'core.straight_line', 'osqp', 'cvxpy')\n"
+            "loaded = sorted(m for m in sys.modules if m.startswith(planning))\n"
+            "assert not loaded, loaded\n")
+    done = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+
+
 def test_cancelled_plan_stops_with_cancelled():
     from core.errors import Cancelled
     from core.progress import CancelToken

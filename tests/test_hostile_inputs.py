@@ -475,7 +475,7 @@ def test_check_verifies_mesh_copies_against_their_digests(tmp_path, capsys):
 
 
 def _cache_entry() -> Path:
-    from core.roadmap.cache import cache_dir
+    from core.paths import cache_dir
 
     entries = list((cache_dir() / "roadmaps").glob("*.npz"))
     assert len(entries) == 1
@@ -542,12 +542,12 @@ def test_unwritable_cache_means_planning_without_it(tmp_path, capsys, monkeypatc
     [(ZeroDivisionError("x"), "internal error (ZeroDivisionError)"), (MemoryError(), "ran out of memory")],
 )
 def test_an_unexpected_error_prints_one_line_and_a_log_file(error, fragment, site, capsys, monkeypatch):
-    import core.cli
+    import core.pipeline
 
     def broken(*_a, **_k):
         raise error
 
-    monkeypatch.setattr(core.cli, "plan", broken)
+    monkeypatch.setattr(core.pipeline, "plan", broken)
     code, text = _plan_lab(site, site.parent / "out", capsys)
     assert code == 3 and fragment in text
     log = Path(text.split("log file " if "log file " in text else "details: ")[1].split(")")[0].strip())

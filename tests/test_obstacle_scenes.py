@@ -36,7 +36,7 @@ def test_bridge_plan_goes_round_the_bridge_and_verifies(bridge_result):
     # Independent discrete check on the waypoints the trajectory stops at (ends of its pieces).
     traj = bridge_result.trajectory
     stops = traj.evaluate(traj.breaks)  # (K + 1, N, 3)
-    assert check_discrete_plan(np.swapaxes(stops, 0, 1), bridge_result.scene.fleet.semi_axes) == []
+    assert check_discrete_plan(np.swapaxes(stops, 0, 1), bridge_result.scene.fleet.clearance) == []
 
 
 def test_bridge_export_carries_its_mesh_and_re_verifies(bridge_result, tmp_path):
@@ -129,7 +129,7 @@ def test_roadmap_is_cached_and_reused_for_a_changed_timeline(tmp_path):
     second = plan(scene_from_dict(data, base_dir=tmp_path), base_dir=tmp_path)
     assert second.stats["roadmap_cached"] is True and second.verified
     # A damaged cache entry is rebuilt, not trusted.
-    from core.roadmap.cache import cache_dir
+    from core.paths import cache_dir
     for entry in (cache_dir() / "roadmaps").iterdir():
         entry.write_bytes(b"not a roadmap")
     assert plan(scene, base_dir=tmp_path).stats["roadmap_cached"] is False

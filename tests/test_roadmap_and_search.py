@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 import trimesh
 
+from core.clearance import ClearanceModel
 from core.obstacles import ClearanceField
 from core.roadmap.build import RoadmapSettings, build_roadmap, clear_neighbour_edges, sample_free
 from core.roadmap.conflicts import annotate
@@ -87,7 +88,7 @@ def _grid_roadmap(nx_, ny_, scale):
         if x + 1 < nx_ and y + 1 < ny_ and (x + y) % 2 == 0:
             edges.append((i, i + nx_ + 1))
     edges = np.array(edges)
-    return Roadmap(vertices, edges, annotate(vertices, edges, scale), len(vertices))
+    return Roadmap(vertices, edges, annotate(vertices, edges, scale))
 
 
 def _optimal_sum_of_costs(roadmap, starts, goals):
@@ -149,7 +150,7 @@ def test_ecbs_with_w_one_is_optimal_against_exhaustive_search():
         assert result.cost == optimum
         positions = roadmap.vertices[np.array([list(p) + [p[-1]] * (result.makespan + 1 - len(p))
                                                for p in result.paths])]
-        assert check_discrete_plan(positions, np.full((3, 3), 0.225)) == []
+        assert check_discrete_plan(positions, ClearanceModel(np.full((3, 3), 0.225))) == []
 
 
 @pytest.mark.parametrize("w", [1.3, 2.0])

@@ -34,8 +34,8 @@ def test_synchronized_straight_lines_keep_the_spacing(seed, n):
     rng = np.random.default_rng(seed)
     box = np.array([6.0, 6.0, 10.0])
     starts, goals = _spaced_points(rng, n, box), _spaced_points(rng, n, box) + rng.uniform(-3, 3, 3)
-    scale = ClearanceModel(np.repeat(AXES[None], n, axis=0)).bound_radii
-    goal_of = assign("unlabeled", starts, goals, scale).goal_of
+    pair_envelope = ClearanceModel(np.repeat(AXES[None], n, axis=0)).pair_envelope
+    goal_of = assign("unlabeled", starts, goals, pair_envelope).goal_of
     legs = straight_leg_points(starts, goals[goal_of], MIN_SNAP, 7)
     traj = FleetTrajectory(np.array([0.0, 10.0]), legs[:, None], tuple(f"d{i}" for i in range(n)))
     # Independent dense check of the published bound: ratio >= 1 at every sample.

@@ -14,6 +14,7 @@ from scipy.integrate import quad
 from scipy.optimize import linprog
 
 from core.bezier import bernstein_basis
+from core.objectives import parse_objective
 from core.smoothing.limits import (
     ACCELERATION_DIRECTIONS,
     HORIZONTAL_DIRECTIONS,
@@ -23,7 +24,7 @@ from core.smoothing.limits import (
 )
 from core.smoothing.qp import DroneProblem, solve_drone
 from core.smoothing.reference import solve_reference
-from core.smoothing.terms import parse_objective, piece_cost_matrix
+from core.smoothing.terms import piece_cost_matrix
 
 TIGHT = {"eps_abs": 1e-9, "eps_rel": 1e-9, "max_iter": 400_000}
 OPEN = np.array([[-100.0] * 3, [100.0] * 3])

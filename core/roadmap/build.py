@@ -59,9 +59,9 @@ def clear_neighbour_edges(field: ClearanceField, points: np.ndarray, k: int, amo
     return candidates[field.segments_clear(points[candidates[:, 0]], points[candidates[:, 1]])]
 
 
-def build_roadmap(field: ClearanceField, pair_scale: np.ndarray, settings: RoadmapSettings, *,
+def build_roadmap(field: ClearanceField, pair_envelope: np.ndarray, settings: RoadmapSettings, *,
                   progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> Roadmap:
-    """Sampled sparse roadmap with its conflicts; ``pair_scale`` ``(3,)``: pair clearance half-axes (m)."""
+    """Sampled sparse roadmap with its conflicts; ``pair_envelope`` ``(3,)``: pair clearance half-axes (m)."""
     cancel = cancel or CancelToken()
     progress("roadmap", 0.0, "sampling free space")
     vertices = sample_free(field, settings.samples, settings.seed)
@@ -77,12 +77,12 @@ def build_roadmap(field: ClearanceField, pair_scale: np.ndarray, settings: Roadm
     edges = edges[greedy_spanner(len(vertices), edges, lengths, settings.stretch, cancel)]
     cancel.check()
     progress("roadmap", 0.7, f"conflicts of {len(vertices)} vertices, {len(edges)} edges")
-    roadmap = Roadmap(vertices, edges, annotate(vertices, edges, pair_scale), len(vertices))
+    roadmap = Roadmap(vertices, edges, annotate(vertices, edges, pair_envelope))
     progress("roadmap", 1.0, f"{roadmap.conflicts.count} conflicts")
     return roadmap
 
 
-def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, pair_scale: np.ndarray,
+def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, pair_envelope: np.ndarray,
                   neighbours: int) -> tuple[Roadmap, np.ndarray]:
     """``roadmap`` with ``points`` ``(P, 3)`` added as vertices (each joined to its nearest
     neighbours by clear edges, conflicts extended) and the vertex index of each point ``(P,)``."""
@@ -90,5 +90,5 @@ def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, p
     vertices = np.concatenate([roadmap.vertices, points])
     index = np.arange(n_old, n_old + len(points))
     edges = np.concatenate([roadmap.edges, clear_neighbour_edges(field, vertices, neighbours, among=index)])
-    added = annotate_added(vertices, edges, n_old, e_old, pair_scale)
-    return Roadmap(vertices, edges, roadmap.conflicts.merged(added), roadmap.n_sampled), index
+    added = annotate_added(vertices, edges, n_old, e_old, pair_envelope)
+    return Roadmap(vertices, edges, roadmap.conflicts.merged(added)), index

@@ -13,7 +13,6 @@ from __future__ import annotations
 import hashlib
 import io
 import json
-import os
 import zipfile
 from collections.abc import Callable
 from dataclasses import asdict
@@ -23,26 +22,20 @@ import numpy as np
 
 from ..atomic import write_bytes_atomic
 from ..obstacles import ClearanceField
+from ..paths import cache_dir
 from .build import RoadmapSettings
 from .conflicts import ConflictPairs
 from .graph import Roadmap
 
 CACHE_FORMAT = "skyloom-roadmap-cache-2"
-_ARRAYS = ("vertices", "edges", "vv", "ve", "ee", "n_sampled")
+_ARRAYS = ("vertices", "edges", "vv", "ve", "ee")
 
 
-def cache_dir() -> Path:
-    if os.environ.get("SKYLOOM_CACHE_DIR"):
-        return Path(os.environ["SKYLOOM_CACHE_DIR"])
-    base = os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache"
-    return Path(base) / "skyloom"
-
-
-def roadmap_key(field: ClearanceField, pair_scale: np.ndarray, settings: RoadmapSettings) -> str:
+def roadmap_key(field: ClearanceField, pair_envelope: np.ndarray, settings: RoadmapSettings) -> str:
     """Hex digest of every input the roadmap depends on."""
     h = hashlib.sha256()
     h.update(json.dumps({"format": CACHE_FORMAT, "settings": asdict(settings),
-                         "semi_axes": field.semi_axes.tolist(), "pair_scale": np.asarray(pair_scale).tolist(),
+                         "semi_axes": field.semi_axes.tolist(), "pair_envelope": np.asarray(pair_envelope).tolist(),
                          "volume": field.flight_volume.tolist(), "keep_out": [b.tolist() for b in field.keep_out],
                          "pitches": [g.pitch for g in field.grids]}, sort_keys=True).encode())
     for digest in field.mesh_digests:
@@ -97,13 +90,12 @@ def _read_entry(path: Path, key: str) -> Roadmap:
         if a.ndim != 2 or a.shape[1] != 2 or a.dtype.kind not in "iu" or (len(a) and (
                 a.min() < 0 or a[:, 0].max() >= bound_a or a[:, 1].max() >= bound_b)):
             raise ValueError(f"{name} is not a (P, 2) table of valid indices")
-    return Roadmap(vertices, edges, ConflictPairs(arrays["vv"], arrays["ve"], arrays["ee"]), int(arrays["n_sampled"]))
+    return Roadmap(vertices, edges, ConflictPairs(arrays["vv"], arrays["ve"], arrays["ee"]))
 
 
 def _entry_bytes(roadmap: Roadmap, key: str) -> bytes:
     c = roadmap.conflicts
-    arrays = {"vertices": roadmap.vertices, "edges": roadmap.edges, "vv": c.vv, "ve": c.ve, "ee": c.ee,
-              "n_sampled": np.asarray(roadmap.n_sampled)}
+    arrays = {"vertices": roadmap.vertices, "edges": roadmap.edges, "vv": c.vv, "ve": c.ve, "ee": c.ee}
     buffer = io.BytesIO()
     np.savez_compressed(buffer, checksum=np.asarray(_checksum(key, arrays)), **arrays)
     return buffer.getvalue()

@@ -83,19 +83,19 @@ def edge_edge(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray | None = None, b1: 
     return _stack(out)
 
 
-def annotate(vertices: np.ndarray, edges: np.ndarray, scale: np.ndarray) -> ConflictPairs:
+def annotate(vertices: np.ndarray, edges: np.ndarray, pair_envelope: np.ndarray) -> ConflictPairs:
     """All conflicts of a roadmap: ``vertices`` ``(V, 3)`` metres, ``edges`` ``(E, 2)``, pair
-    clearance half-axes ``scale`` ``(3,)`` metres."""
-    p = vertices / scale
+    clearance half-axes ``pair_envelope`` ``(3,)`` metres."""
+    p = vertices / pair_envelope
     return ConflictPairs(vertex_vertex(p), vertex_edge(p, p[edges[:, 0]], p[edges[:, 1]]),
                          edge_edge(p[edges[:, 0]], p[edges[:, 1]]))
 
 
 def annotate_added(vertices: np.ndarray, edges: np.ndarray, n_old_vertices: int, n_old_edges: int,
-                   scale: np.ndarray) -> ConflictPairs:
+                   pair_envelope: np.ndarray) -> ConflictPairs:
     """Conflicts involving vertices ``≥ n_old_vertices`` or edges ``≥ n_old_edges`` (appended to a
     roadmap whose own conflicts are already known); same arguments as :func:`annotate`."""
-    p = vertices / scale
+    p = vertices / pair_envelope
     s0, s1 = p[edges[:, 0]], p[edges[:, 1]]
     nv, ne = n_old_vertices, n_old_edges
     vv_new = vertex_vertex(p[nv:])

@@ -16,12 +16,11 @@ from .conflicts import ConflictPairs
 class Roadmap:
     """vertices ``(V, 3)`` metres; edges ``(E, 2)`` vertex indices (i < j), undirected, lengths
     ``(E,)`` metres; conflicts between its actions (wait at vertex v = action v, traverse edge e =
-    action V + e); ``n_sampled``: vertices from sampling (the rest were attached later)."""
+    action V + e)."""
 
     vertices: np.ndarray
     edges: np.ndarray
     conflicts: ConflictPairs
-    n_sampled: int
 
     @property
     def n_vertices(self) -> int:

@@ -21,6 +21,13 @@ def box_distance_ratio(points: np.ndarray, bounds: np.ndarray, semi_axes: np.nda
     return np.linalg.norm(gap / semi_axes, axis=-1)
 
 
+def crowded_points(points: np.ndarray, clearance: ClearanceModel) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs ``(M, 2)`` of formation points ``(P, 3)`` closer than the fleet's largest pair shape
+    (any drone may land on any point), with their ratios ``(M,)``: the loader's rule, shared with
+    the designer's layout view."""
+    return clearance.bound_pairs(points, 1.0)
+
+
 def format_xyz(point: np.ndarray, spec: str = "g") -> str:
     """``(x, y, z)`` with each coordinate formatted by ``spec`` (for messages)."""
     return "(" + ", ".join(format(c, spec) for c in point) + ")"
@@ -115,8 +122,7 @@ def _check_mesh_files(scene: Scene, source: str, base_dir: Path) -> list[tuple[s
 def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
     out = []
     n = len(scene.fleet.drones)
-    model = ClearanceModel(scene.fleet.semi_axes)
-    largest_axes = scene.fleet.semi_axes.max(axis=0)
+    clearance = scene.fleet.clearance
     volume = scene.site.flight_volume.bounds
     for k, f in enumerate(scene.formations):
         where = f"{source}: formations[{k}] ({f.name!r})"
@@ -129,11 +135,10 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
         outside = np.nonzero(np.any((p < volume[0]) | (p > volume[1]), axis=1))[0]
         out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} is outside the flight volume") for i in outside])
         for box in scene.site.keep_out:
-            hit = np.nonzero(box_distance_ratio(p, box.bounds, largest_axes) < 1.0)[0]
+            hit = np.nonzero(box_distance_ratio(p, box.bounds, clearance.envelope) < 1.0)[0]
             out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} puts a drone's clearance ellipsoid inside "
                              f"keep-out box {box.name!r}") for i in hit])
-        # Unlabeled modes may put any drone on any point: use the largest pair shape.
-        pairs, ratios = model.bound_pairs(p, 1.0)
+        pairs, ratios = crowded_points(p, clearance)
         out += _listed([
             (f"{where}.points[{i}] and points[{j}]",
              f"are closer than the fleet's clearance (separation ratio {r:.3f} < 1; "

@@ -13,6 +13,7 @@ import numpy as np
 from pydantic import AfterValidator, ConfigDict, Field
 from pydantic.dataclasses import dataclass
 
+from ..clearance import ClearanceModel
 from ..limits import (
     MAX_ACCELERATION_M_S2,
     MAX_COORDINATE_M,
@@ -25,7 +26,7 @@ from ..limits import (
     MAX_SPEED_M_S,
     MAX_TRANSITIONS,
 )
-from ..smoothing.terms import parse_objective
+from ..objectives import parse_objective
 
 _STRICT = ConfigDict(extra="forbid", frozen=True)
 
@@ -170,6 +171,11 @@ class Fleet:
         return np.array([t.semi_axes for t in self.type_of])
 
     @cached_property
+    def clearance(self) -> ClearanceModel:
+        """The fleet's clearance model (pair shapes, envelope), built once."""
+        return ClearanceModel(self.semi_axes)
+
+    @cached_property
     def limits(self) -> np.ndarray:
         """``(N, 3)`` per drone: max horizontal speed, max vertical speed (m/s), max accel (m/s²)."""
         return np.array([(t.max_speed_xy, t.max_speed_z, t.max_acceleration) for t in self.type_of])
@@ -246,7 +252,7 @@ class PlannerSettings:
     suboptimality: _finite(ge=1.0, le=10.0) = 2.0
     search_time_limit: _finite(gt=0.0, le=3600.0) = 60.0
     #: Smoothing of roadmap plans: on/off, most QP rounds, objective (a name or term weights, see
-    #: :func:`core.smoothing.terms.parse_objective`).
+    #: :func:`core.objectives.parse_objective`).
     smoothing: Annotated[bool, Field(strict=True)] = True
     smoothing_iterations: _integer(ge=1, le=50) = 3
     objective: Annotated[str, Field(strict=True, max_length=200), AfterValidator(_objective_text)] = "snap"

@@ -12,9 +12,10 @@ import cvxpy as cp
 import numpy as np
 
 from ..bezier import bernstein_basis
+from ..objectives import TERM_ORDER
 from .limits import ACCELERATION_DIRECTIONS, HORIZONTAL_DIRECTIONS, inscribed_scale
 from .qp import DroneProblem
-from .terms import TERM_ORDER, continuity_order, rest_order
+from .terms import continuity_order, rest_order
 
 
 def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variable]]:

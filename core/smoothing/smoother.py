@@ -17,6 +17,7 @@ import numpy as np
 
 from ..bezier import derivative_control_points, split_equal_parts
 from ..clearance import ClearanceModel
+from ..objectives import TERM_ORDER
 from ..obstacles import ClearanceField
 from ..progress import CancelToken, ProgressCallback, no_progress
 from ..trajectory import FleetTrajectory
@@ -24,7 +25,7 @@ from ..verify import VerificationSpec, verify
 from .corridors import PairPlanes, Tubes, drone_rows, initial_planes, refined_planes, step_tubes
 from .limits import safe_step_durations, stop_at_vertices_points
 from .qp import DroneProblem, DroneSolution, solve_drone
-from .terms import TERM_ORDER, curve_costs, rest_order, trajectory_cost
+from .terms import curve_costs, rest_order, trajectory_cost
 
 #: Relative objective decrease below which the iteration stops.
 IMPROVEMENT_TOLERANCE = 1e-3

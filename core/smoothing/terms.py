@@ -12,16 +12,8 @@ from math import factorial
 import numpy as np
 from scipy.special import comb
 
-#: Derivative order of each objective term (m/s² … m/s⁴).
-TERM_ORDER = {"acceleration": 2, "jerk": 3, "snap": 4}
-#: Named objectives: weights of ∫‖acceleration‖², ∫‖jerk‖², ∫‖snap‖² dt. "energy" is a common
-#: acceleration-dominated mix (common practice, no source).
-OBJECTIVES = {
-    "snap": {"snap": 1.0},
-    "jerk": {"jerk": 1.0},
-    "acceleration": {"acceleration": 1.0},
-    "energy": {"acceleration": 1.0, "jerk": 0.1, "snap": 0.01},
-}
+from ..objectives import TERM_ORDER
+
 #: Highest derivative kept continuous at the joins between pieces (snap).
 CONTINUITY_ORDER = 4
 
@@ -76,21 +68,3 @@ def curve_costs(pieces: np.ndarray, durations: np.ndarray, weights: dict[str, fl
 def trajectory_cost(pieces: np.ndarray, durations: np.ndarray, weights: dict[str, float]) -> float:
     """:func:`curve_costs` summed over all curves."""
     return float(curve_costs(pieces, durations, weights).sum())
-
-
-def parse_objective(text: str) -> dict[str, float]:
-    """An objective from a name (``snap``, ``jerk``, ``acceleration``, ``energy``) or weights such as
-    ``acceleration=1,snap=0.01``. Raises ``ValueError`` saying what is wrong."""
-    text = text.strip()
-    if text in OBJECTIVES:
-        return dict(OBJECTIVES[text])
-    weights = {}
-    for part in filter(None, (p.strip() for p in text.split(","))):
-        name, sep, value = part.partition("=")
-        if not sep or name.strip() not in TERM_ORDER:
-            raise ValueError(f"objective {text!r}: expected one of {', '.join(OBJECTIVES)} or weights like "
-                             "'acceleration=1,snap=0.01' (terms: acceleration, jerk, snap)")
-        weights[name.strip()] = float(value)
-    if not weights or any(w < 0 for w in weights.values()) or not any(w > 0 for w in weights.values()):
-        raise ValueError(f"objective {text!r}: weights must be ≥ 0 and at least one > 0")
-    return weights

@@ -12,7 +12,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..clearance import ClearanceModel
 from ..progress import CancelToken, ProgressCallback, no_progress
 from ..scene.checks import box_distance_ratio
 from ..trajectory import MOTION_QUANTITIES, FleetTrajectory
@@ -100,11 +99,11 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
     Returns violations, per-drone smallest separation ratio ``(N,)``, the fleet's smallest ratio
     over time ``{"t", "min_ratio"}`` and sampling facts for the report.
     """
-    model = ClearanceModel(spec.semi_axes)
+    model = spec.clearance
     n, n_seg = traj.n_drones, traj.n_segments
     # Speed bounds per window (piece s, part m): the convex hull of each sub-interval's velocity.
     velocity = traj.window_points(1, WINDOWS_PER_PIECE)
-    scaled_speed = np.linalg.norm(velocity / model.bound_radii, axis=-1).max(axis=-1)  # (N, S, M), 1/s
+    scaled_speed = np.linalg.norm(velocity / model.pair_envelope, axis=-1).max(axis=-1)  # (N, S, M), 1/s
     speed = np.linalg.norm(velocity, axis=-1).max(axis=-1)  # (N, S, M), m/s
     per_drone = np.full(n, np.inf)
     timeline_t, timeline_min = [], []

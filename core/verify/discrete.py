@@ -27,10 +27,9 @@ class StepConflict:
     ratio: float
 
 
-def check_discrete_plan(positions: np.ndarray, semi_axes: np.ndarray) -> list[StepConflict]:
-    """Conflicts of a plan ``positions`` ``(N, K + 1, 3)`` (metres) for clearance half-axes ``(N, 3)``."""
-    model = ClearanceModel(semi_axes)
-    bound = model.bound_radii
+def check_discrete_plan(positions: np.ndarray, model: ClearanceModel) -> list[StepConflict]:
+    """Conflicts of a plan ``positions`` ``(N, K + 1, 3)`` (metres) under the fleet's clearance ``model``."""
+    bound = model.pair_envelope
     out = []
     for k in range(positions.shape[1] - 1):
         p0, p1 = positions[:, k], positions[:, k + 1]

@@ -6,14 +6,13 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-KINDS = ("separation", "flight_volume", "keep_out", "speed_xy", "speed_z", "acceleration")
-
 
 @dataclass(frozen=True)
 class Violation:
     """One requirement broken (or not provable) around ``time`` seconds.
 
-    kind : one of :data:`KINDS`; drones : ids involved; position : (x, y, z) metres of the first
+    kind : what was violated (``separation``, ``flight_volume``, ``keep_out``, ``obstacle``,
+    ``speed_xy``, ``speed_z``, ``acceleration``); drones : ids involved; position : (x, y, z) metres of the first
     drone; measured / required : the figure and its bound (ratio, m/s, m/s² or metres);
     proven : False when the value is within tolerance but could not be proven safe.
     """
@@ -65,17 +64,6 @@ class VerificationReport:
         data = asdict(self)
         data["min_separation_ratio"] = self.min_separation_ratio
         return _finite(data)
-
-    @classmethod
-    def from_dict(cls, data: dict) -> VerificationReport:
-        return cls(
-            ok=data["ok"], duration=data["duration"], n_drones=data["n_drones"],
-            violations=[Violation(**{**v, "drones": tuple(v["drones"]), "position": tuple(v["position"])})
-                        for v in data["violations"]],
-            drones=[DroneFigures(**d) for d in data["drones"]],
-            sampling=data["sampling"], separation_timeline=data.get("separation_timeline", {}),
-            elapsed_s=data.get("elapsed_s", 0.0),
-        )
 
     def summary_lines(self) -> list[str]:
         peak = {k: max((getattr(d, k) for d in self.drones), default=0.0) for k in

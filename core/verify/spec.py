@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
 import trimesh
 
+from ..clearance import ClearanceModel
 from ..scene.meshes import SiteMesh, load_site_meshes
 from ..scene.model import Scene
 
@@ -31,6 +33,11 @@ class VerificationSpec:
     keep_out: tuple[tuple[str, np.ndarray], ...] = ()
     meshes: tuple[tuple[str, trimesh.Trimesh], ...] = ()
     tolerance: float = 0.01
+
+    @cached_property
+    def clearance(self) -> ClearanceModel:
+        """The pair shapes of :attr:`semi_axes` (one model per spec, built on first use)."""
+        return ClearanceModel(self.semi_axes)
 
 
 def spec_from_scene(scene: Scene, base_dir: Path | None = None, meshes: tuple[SiteMesh, ...] | None = None
