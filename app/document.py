@@ -134,7 +134,7 @@ class Document(QObject):
 
     def problems(self) -> list[tuple[str, str]]:
         """What is inconsistent in the scene as edited (empty when it can be planned)."""
-        return check_scene(self.scene, self.source_name, self.base_dir)
+        return check_scene(self.scene, self.source_name, self.base_dir, self.meshes() or None)
 
     @property
     def source_name(self) -> str:

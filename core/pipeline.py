@@ -1,65 +1,63 @@
 """The planning pipeline shared by the CLI and the GUI.
 
-scene → per transition: goal assignment → straight lines if they are clear, else roadmap search
-and corridor smoothing (per-drone QPs through an executor) → timing → trajectories → independent
-verification.
+scene → per transition, in timeline order: goal assignment and straight lines if they are clear,
+else the roadmap assignment (this chain is cheap and fixes every transition's starts and goals)
+→ the roadmap transitions' search and smoothing, as independent tasks on an executor (or one by
+one with their per-drone QPs on it) → trajectories → independent verification.
 """
 
 from __future__ import annotations
 
 import time
-from concurrent.futures import Executor
+from concurrent.futures import FIRST_COMPLETED, Executor, wait
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 from pydantic import ValidationError
 
-from .assignment import Assignment, assign
 from .errors import PlanningError, SceneError
-from .executors import plan_executor
-from .obstacle_planning import ObstaclePlanner
+from .executors import InlineExecutor, plan_executor
+from .limits import MAX_TIMELINE_S
+from .planning import (
+    EcbsSolver,
+    MultiAgentSolver,
+    PlanningContext,
+    RoadmapFigures,
+    TransitionProblem,
+    TransitionResult,
+    plan_on_roadmap,
+    plan_straight,
+    roadmap_assignment,
+)
 from .progress import CancelToken, ProgressCallback, no_progress
 from .scene.model import PlannerSettings, Scene
-from .straight_line import hold_points, straight_leg_points, synchronized_spacing_holds
-from .timing import MIN_TRANSITION_DURATION, PROFILES, minimum_duration, trapezoid_lower_bound
+from .straight_line import hold_points
+from .timing import PROFILES
 from .trajectory import FleetTrajectory
-from .verify import VerificationReport, VerificationSpec, spec_from_scene, verify
-from .verify.checker import check_separation
+from .verify import VerificationReport, verify
 
-
-@dataclass(frozen=True)
-class TransitionPlan:
-    """What was decided for one timeline transition (durations in seconds)."""
-
-    index: int
-    source: str
-    target: str
-    mode: str
-    assignment: Assignment
-    duration: float
-    minimum_duration: float
-    lower_bound: float
-    method: str
-    spacing_guarantee: bool
-    search: dict = field(default_factory=dict)
-
-    @property
-    def makespan_ratio(self) -> float:
-        """Duration over the trapezoidal-profile lower bound of the longest leg (≥ 1)."""
-        return self.duration / self.lower_bound if self.lower_bound > 0 else 1.0
+#: How often a wait for parallel transition tasks looks at the cancel token (s).
+CANCEL_POLL_S = 0.2
 
 
 @dataclass
 class PlanResult:
+    """A verified (or not: see ``report.ok``) plan of a whole timeline, with what produced it.
+
+    ``context`` is kept so that a re-plan of the same site, fleet and settings reuses its meshes,
+    field and roadmap; ``roadmap`` describes the roadmap used (None when none was needed)."""
+
     scene: Scene
     settings: PlannerSettings
     trajectory: FleetTrajectory
-    transitions: list[TransitionPlan]
+    transitions: list[TransitionResult]
     report: VerificationReport
     stage_seconds: dict[str, float] = field(default_factory=dict)
-    stats: dict = field(default_factory=dict)
+    roadmap: RoadmapFigures | None = None
+    warnings: tuple[str, ...] = ()
     base_dir: Path = Path(".")
+    context: PlanningContext | None = None
 
     @property
     def verified(self) -> bool:
@@ -69,123 +67,147 @@ class PlanResult:
 def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str | Path | None = None,
          use_cache: bool = True, progress: ProgressCallback = no_progress,
          cancel: CancelToken | None = None, executor: Executor | None = None, workers: int | None = None,
-         source: str = "scene") -> PlanResult:
+         source: str = "scene", previous: PlanResult | None = None,
+         solver: MultiAgentSolver | None = None) -> PlanResult:
     """Plan and verify every transition of ``scene``'s timeline.
 
     ``base_dir`` is the folder mesh paths are relative to (the scene file's folder); ``use_cache``
-    reuses roadmaps stored on disk. Per-drone smoothing QPs run on ``executor`` (any
-    :class:`concurrent.futures.Executor`), else on a process pool of ``workers`` (see
-    :func:`core.executors.plan_executor`). Raises :class:`PlanningError` (or :class:`SceneError`) naming
-    the transition and drones when no plan can be made. A plan that fails verification is returned
-    with ``report.ok`` False; callers decide what to do. ``source`` names the scene file in messages.
+    reuses roadmaps stored on disk. Work runs on ``executor`` (any
+    :class:`concurrent.futures.Executor`: a Dask cluster's, say), else on a process pool of
+    ``workers`` (see :func:`core.executors.plan_executor`): several roadmap transitions are planned
+    as parallel tasks, a single one spreads its per-drone QPs instead. ``previous`` (an earlier
+    plan) lends its context when the site, fleet and settings are unchanged, and its result for
+    every transition whose problem is unchanged. ``solver`` is the multi-agent search (default
+    ECBS at the settings' suboptimality). Raises :class:`PlanningError` (or :class:`SceneError`)
+    naming the transition and drones when no plan can be made; a plan that fails verification is
+    returned with ``report.ok`` False. ``source`` names the scene file in messages.
     """
+    settings = settings or scene.planner
     with plan_executor(executor, workers) as pool:
-        return _plan(scene, settings or scene.planner, Path(base_dir or "."), use_cache, progress,
-                     cancel or CancelToken(), pool, source)
+        return _plan(scene, settings, Path(base_dir or "."), use_cache, progress, cancel or CancelToken(), pool,
+                     source, previous, solver or EcbsSolver(settings.suboptimality))
+
+
+def _context(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, source: str,
+             previous: PlanResult | None) -> tuple[PlanningContext, bool]:
+    """The earlier plan's context when it fits (and True), else a new one (and False)."""
+    old = previous.context if previous is not None else None
+    if old is not None and old.reusable_for(scene, settings, base_dir, use_cache):
+        return old.for_scene(scene, source), True
+    return PlanningContext(scene, settings, base_dir, source=source, use_cache=use_cache), False
 
 
 def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, progress: ProgressCallback,
-          cancel: CancelToken, executor: Executor, source: str) -> PlanResult:
+          cancel: CancelToken, executor: Executor, source: str, previous: PlanResult | None,
+          solver: MultiAgentSolver) -> PlanResult:
     profile = PROFILES[settings.profile]
     if profile.degree > settings.degree:
         raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
                             f"(needs at least {profile.degree})")
-    limits = scene.fleet.limits * settings.limit_margin
-    clearance = scene.fleet.clearance
-    obstacles = ObstaclePlanner(scene, settings, base_dir, executor, use_cache=use_cache, progress=progress,
-                                cancel=cancel, source=source)
-    spec = spec_from_scene(scene, meshes=obstacles.meshes)  # meshes read (and checked) once, before planning
-    timings: dict[str, float] = {"assignment": 0.0, "transitions": 0.0}
+    context, reused_context = _context(scene, settings, base_dir, use_cache, source, previous)
+    timings: dict[str, float] = {"straight lines": 0.0, "roadmap assignment": 0.0}
+    results, jobs = _chain(scene, context, previous if reused_context else None, timings, progress, cancel)
+    t0 = time.perf_counter()
+    for k, result in _run_jobs(jobs, context, solver, executor, progress, cancel):
+        results[k] = result
+    timings["search and smoothing"] = time.perf_counter() - t0
+    trajectory = _assemble(scene, settings, results)
+    if trajectory.duration > MAX_TIMELINE_S:
+        raise PlanningError(f"the timeline would last {trajectory.duration:.0f} s; at most {MAX_TIMELINE_S:.0f} s "
+                            "(7 days) is planned: raise the speed limits or shorten the transitions")
+    t0 = time.perf_counter()
+    report = verify(trajectory, context.spec, progress=progress, cancel=cancel)
+    timings["verification"] = time.perf_counter() - t0
+    timings.update(context.seconds)
+    roadmap = context.roadmap_figures if any(r.method.used_roadmap for r in results) else None
+    return PlanResult(scene, settings, trajectory, results, report, timings, roadmap, tuple(context.warnings),
+                      base_dir, context)
 
+
+def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, timings: dict[str, float],
+           progress: ProgressCallback, cancel: CancelToken
+           ) -> tuple[list[TransitionResult | None], list[tuple[int, TransitionProblem, object, float]]]:
+    """Walk the timeline in order: each transition's problem, its assignment (which fixes the next
+    one's starts), and its result when straight lines do (or the earlier plan has it); the others
+    become roadmap jobs ``(index, problem, assignment, lower bound)``."""
     start = scene.formation(scene.timeline.start)
-    positions = start.positions.copy()
-    occupied = np.arange(len(positions))  # formation point index held by each drone
-    current = start
-    durations, pieces, labels, transitions = [], [], [], []
+    positions, occupied, current = start.positions.copy(), np.arange(len(start.positions)), start
+    results: list[TransitionResult | None] = []
+    jobs = []
+    transitions = scene.timeline.transitions
+    for k, tr in enumerate(transitions):
+        cancel.check()
+        progress("assignment", k / len(transitions), f"{current.name} → {tr.to}")
+        target = scene.formation(tr.to)
+        problem = TransitionProblem(
+            k, current.name, target.name, tr.assignment, positions, occupied, target.positions,
+            None if current.groups is None else np.asarray(current.groups)[occupied],
+            None if target.groups is None else np.asarray(target.groups), tr.duration, tr.hold)
+        earlier = previous.transitions[k] if previous is not None and k < len(previous.transitions) else None
+        if earlier is not None and earlier.problem.same_as(problem):
+            results.append(earlier)
+            goal_of = earlier.assignment.goal_of
+        else:
+            t0 = time.perf_counter()
+            attempt = plan_straight(problem, context, progress=progress, cancel=cancel)
+            timings["straight lines"] += time.perf_counter() - t0
+            results.append(attempt.result)
+            goal_of = attempt.assignment.goal_of
+            if attempt.result is None:
+                progress("search", 0.0, f"{problem.where}: straight lines blocked, searching the roadmap")
+                t0 = time.perf_counter()
+                assignment = roadmap_assignment(problem, context, progress, cancel)
+                timings["roadmap assignment"] += time.perf_counter() - t0
+                jobs.append((k, problem, assignment, attempt.lower_bound))
+                goal_of = assignment.goal_of
+        positions, occupied, current = target.positions[goal_of], goal_of, target
+    return results, jobs
+
+
+def _run_jobs(jobs, context: PlanningContext, solver: MultiAgentSolver, executor: Executor,
+              progress: ProgressCallback, cancel: CancelToken):
+    """Yield ``(index, result)`` of every roadmap job. Several jobs on a real executor run as
+    parallel tasks (each solving its per-drone QPs inline); otherwise one by one here, with the
+    per-drone QPs on the executor. Both give the same plan (every stage is deterministic)."""
+    if len(jobs) < 2 or isinstance(executor, InlineExecutor):
+        for k, problem, assignment, bound in jobs:
+            yield k, plan_on_roadmap(problem, assignment, bound, context, solver, executor, progress=progress,
+                                     cancel=cancel)
+        return
+    futures = {executor.submit(plan_on_roadmap, problem, assignment, bound, context, solver): k
+               for k, problem, assignment, bound in jobs}
+    pending = set(futures)
+    try:
+        while pending:
+            cancel.check()
+            done, pending = wait(pending, timeout=CANCEL_POLL_S, return_when=FIRST_COMPLETED)
+            for f in done:
+                progress("search", 1 - len(pending) / len(futures), f"{len(futures) - len(pending)} of "
+                         f"{len(futures)} roadmap transitions planned")
+                yield futures[f], f.result()
+    finally:
+        for f in pending:
+            f.cancel()
+
+
+def _assemble(scene: Scene, settings: PlannerSettings, results: list[TransitionResult]) -> FleetTrajectory:
+    """The fleet's trajectory: start hold, then each transition's pieces and its hold."""
+    durations, pieces, labels = [], [], []
+    start = scene.formation(scene.timeline.start)
     if scene.timeline.start_hold > 0:
         durations.append(scene.timeline.start_hold)
-        pieces.append(hold_points(positions, settings.degree)[:, None])
+        pieces.append(hold_points(start.positions, settings.degree)[:, None])
         labels.append(f"hold {start.name}")
-    n_tr = len(scene.timeline.transitions)
-    for k, tr in enumerate(scene.timeline.transitions):
-        cancel.check()
-        progress("assignment", k / n_tr, f"{current.name} → {tr.to}")
-        target = scene.formation(tr.to)
-        where = f"timeline.transitions[{k}] ({current.name} → {target.name})"
-        start_groups = None if current.groups is None else np.asarray(current.groups)[occupied]
-        t0 = time.perf_counter()
-        chosen = assign(tr.assignment, positions, target.positions, clearance.pair_envelope, start_groups,
-                        target.groups, progress=progress, cancel=cancel)
-        timings["assignment"] += time.perf_counter() - t0
-        t0 = time.perf_counter()
-        goals = target.positions[chosen.goal_of]
-        legs = goals - positions
-        bound = trapezoid_lower_bound(legs, scene.fleet.limits)
-        per_drone = minimum_duration(legs, limits, profile)
-        needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
-        leg_points = straight_leg_points(positions, goals, profile, settings.degree)
-        guarantee = clearance.homogeneous and tr.assignment == "unlabeled" \
-            and synchronized_spacing_holds(positions, goals, clearance.pair_envelope)
-        # On a shared time profile the relative motion does not depend on the duration.
-        if obstacles.legs_clear(positions, goals) and (guarantee or _separated(leg_points, needed, spec)):
-            slowest = int(np.argmax(per_drone))
-            duration = _requested_duration(
-                where, tr.duration, needed, f"the limits (at {settings.limit_margin:.0%}) need",
-                f" (longest leg: drone {scene.fleet.ids[slowest]}, {np.linalg.norm(legs[slowest]):.2f} m)")
-            step_durations, step_pieces = np.array([duration]), leg_points[:, None]
-            method, figures = "straight lines, shared time profile", {}
-        else:
-            progress("search", 0.0, f"{where}: straight lines blocked, searching the roadmap")
-            chosen, step_durations, step_pieces, figures = obstacles.plan_transition(
-                where, current.name, occupied, target.name, tr.assignment, start_groups, target.groups,
-                profile, limits, spec)
-            goals = target.positions[chosen.goal_of]
-            needed = max(float(step_durations.sum()), MIN_TRANSITION_DURATION)
-            duration = _requested_duration(where, tr.duration, needed, "the roadmap plan around the obstacles needs")
-            step_durations = step_durations * (duration / needed)  # uniform: keeps the drones in step
-            method, guarantee = f"roadmap search (ECBS, w = {settings.suboptimality:g}), " + (
-                "smoothed in safe corridors" if figures["smoothed"] else "stop at every waypoint"), False
-        durations += list(step_durations)
-        pieces.append(step_pieces)
-        labels += [f"{current.name} → {target.name}"] * len(step_durations)
-        transitions.append(TransitionPlan(
-            index=k, source=current.name, target=target.name, mode=tr.assignment, assignment=chosen,
-            duration=duration, minimum_duration=needed, lower_bound=bound, method=method,
-            spacing_guarantee=guarantee, search=figures,
-        ))
-        if tr.hold > 0:
-            durations.append(tr.hold)
-            pieces.append(hold_points(goals, settings.degree)[:, None])
-            labels.append(f"hold {target.name}")
-        positions, occupied, current = goals, chosen.goal_of, target
-        timings["transitions"] += time.perf_counter() - t0  # includes any search
-    trajectory = FleetTrajectory(
-        breaks=np.r_[0.0, np.cumsum(durations)], control_points=np.concatenate(pieces, axis=1),
-        drone_ids=scene.fleet.ids, segment_labels=tuple(labels),
-    )
-    t0 = time.perf_counter()
-    report = verify(trajectory, spec, progress=progress, cancel=cancel)
-    timings["verification"] = time.perf_counter() - t0
-    timings.update(obstacles.seconds)
-    return PlanResult(scene, settings, trajectory, transitions, report, timings, obstacles.stats, base_dir)
-
-
-def _separated(leg_points: np.ndarray, duration: float, spec: VerificationSpec) -> bool:
-    """Whether one straight-line piece ``(N, n + 1, 3)`` of ``duration`` s keeps every pair separated
-    (the verifier's continuous-time separation check on that piece alone)."""
-    piece = FleetTrajectory(np.array([0.0, duration]), leg_points[:, None], spec.drone_ids, ("candidate",))
-    violations, *_ = check_separation(piece, spec)
-    return not violations
-
-
-def _requested_duration(where: str, requested, needed: float, needs: str, detail: str = "") -> float:
-    """A transition's duration in seconds: ``needed`` for ``"fastest"``, else the request. A request
-    below ``needed`` raises :class:`PlanningError` saying where, what ``needs`` how long, and ``detail``."""
-    if requested == "fastest":
-        return needed
-    if requested < needed:
-        raise PlanningError(f"{where}: duration {requested:g} s is too short; {needs} at least {needed:.2f} s{detail}")
-    return float(requested)
+    for r in results:
+        durations += list(r.durations)
+        pieces.append(r.pieces)
+        labels += [f"{r.problem.source} → {r.problem.target}"] * len(r.durations)
+        if r.problem.hold > 0:
+            durations.append(r.problem.hold)
+            pieces.append(hold_points(r.ends, settings.degree)[:, None])
+            labels.append(f"hold {r.problem.target}")
+    return FleetTrajectory(breaks=np.r_[0.0, np.cumsum(durations)], control_points=np.concatenate(pieces, axis=1),
+                           drone_ids=scene.fleet.ids, segment_labels=tuple(labels))
 
 
 def with_settings(scene: Scene, **changes) -> PlannerSettings:

@@ -90,7 +90,7 @@ def _straight_swap(tmp_path=None):
 def test_labeled_swap_is_routed_around_on_the_roadmap():
     swap = {"a": np.array([[-3.0, 0, 2], [3.0, 0, 2]]), "b": np.array([[3.0, 0, 2], [-3.0, 0, 2]])}
     result = plan(scene_from_dict(scene_dict(swap, [{"to": "b", "assignment": "labeled"}])))
-    assert result.verified and "roadmap" in result.transitions[0].method
+    assert result.verified and result.transitions[0].method.used_roadmap
 
 
 def test_failed_plan_is_refused_unless_overridden_and_then_marked(tmp_path):
@@ -167,7 +167,7 @@ def test_check_and_export_load_no_planning_module(lab_result, tmp_path):
             "from core.cli import main\n"
             f"assert main(['check', {str(out)!r}, '--quiet']) == 0\n"
             "import core.export\n"
-            "planning = ('core.pipeline', 'core.obstacle_planning', 'core.smoothing', 'core.search', 'core.roadmap',\n"
+            "planning = ('core.pipeline', 'core.planning', 'core.smoothing', 'core.search', 'core.roadmap',\n"
             "            'core.obstacles', 'core.assignment', 'core.auction', 'core.straight_line', 'osqp', 'cvxpy')\n"
             "loaded = sorted(m for m in sys.modules if m.startswith(planning))\n"
             "assert not loaded, loaded\n")

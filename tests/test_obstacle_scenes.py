@@ -12,6 +12,7 @@ from core.errors import PlanningError, SceneError
 from core.executors import InlineExecutor
 from core.export import export_plan
 from core.pipeline import plan
+from core.planning import TransitionMethod
 from core.scene import load_scene, scene_from_dict
 from core.straight_line import straight_leg_points
 from core.timing import PROFILES
@@ -30,9 +31,9 @@ def bridge_result():
 def test_bridge_plan_goes_round_the_bridge_and_verifies(bridge_result):
     assert bridge_result.verified
     assert any(v.kind == "obstacle" for v in bridge_result.report.violations) is False
-    assert all("roadmap" in t.method and "smoothed" in t.method for t in bridge_result.transitions)
+    assert all(t.method is TransitionMethod.SMOOTHED for t in bridge_result.transitions)
     assert not any(v.kind == "obstacle" for v in bridge_result.report.violations)
-    assert bridge_result.stats["roadmap_vertices"] > 500 and bridge_result.stats["roadmap_conflicts"] > 0
+    assert bridge_result.roadmap.vertices > 500 and bridge_result.roadmap.conflicts > 0
     # Independent discrete check on the waypoints the trajectory stops at (ends of its pieces).
     traj = bridge_result.trajectory
     stops = traj.evaluate(traj.breaks)  # (K + 1, N, 3)
@@ -68,8 +69,8 @@ def test_courtyard_swap_of_32_drones_verifies():
     result = plan(load_scene(SAMPLES / "courtyard_swap.json"), base_dir=SAMPLES)
     assert result.verified and result.trajectory.n_drones == 32
     t = result.transitions[0]
-    assert "roadmap" in t.method and "smoothed" in t.method
-    assert t.duration < t.search["stop_and_go"]["duration_s"]
+    assert t.method is TransitionMethod.SMOOTHED
+    assert t.duration < t.stop_and_go.duration_s
 
 
 def _wall_scene(tmp_path, goal_y, wall_extents=(20.0, 1.0, 10.0)):
@@ -85,10 +86,10 @@ def _wall_scene(tmp_path, goal_y, wall_extents=(20.0, 1.0, 10.0)):
 
 
 def test_goal_inside_an_obstacle_names_the_point_and_mesh(tmp_path):
-    scene = _wall_scene(tmp_path, goal_y=0.0)
+    """Found when the scene is loaded (the designer lists it before planning)."""
     inside = r"formations\[1\] \('b'\)\.points\[0\]: \(-2\.00, 0\.00, 2\.00\) is inside mesh 'wall'"
     with pytest.raises(SceneError, match=inside):
-        plan(scene, base_dir=tmp_path)
+        _wall_scene(tmp_path, goal_y=0.0)
 
 
 def test_unreachable_goal_names_the_drone(tmp_path):
@@ -100,7 +101,7 @@ def test_unreachable_goal_names_the_drone(tmp_path):
 def test_wall_with_room_above_is_planned_over(tmp_path):
     scene = _wall_scene(tmp_path, goal_y=4.0, wall_extents=(20.0, 1.0, 4.0))  # top at 4 m, volume to 8 m
     result = plan(scene, base_dir=tmp_path)
-    assert result.verified and "roadmap" in result.transitions[0].method
+    assert result.verified and result.transitions[0].method.used_roadmap
 
 
 def test_formation_point_outside_the_volume_is_named():
@@ -121,18 +122,18 @@ def test_unreadable_mesh_is_a_clear_error(tmp_path):
 def test_roadmap_is_cached_and_reused_for_a_changed_timeline(tmp_path):
     scene = _wall_scene(tmp_path, goal_y=4.0, wall_extents=(20.0, 1.0, 4.0))
     first = plan(scene, base_dir=tmp_path)
-    assert first.stats["roadmap_cached"] is False
+    assert first.roadmap.cached is False
     data = scene_dict({"a": scene.formation("a").positions, "b": scene.formation("b").positions},
                       [{"to": "b", "assignment": "labeled", "hold": 3.0}])
     data["site"] = {"flight_volume": {"lower": [-8.0, -8.0, 0.0], "upper": [8.0, 8.0, 8.0]},
                     "meshes": [{"name": "wall", "file": "wall.stl"}]}
     second = plan(scene_from_dict(data, base_dir=tmp_path), base_dir=tmp_path)
-    assert second.stats["roadmap_cached"] is True and second.verified
+    assert second.roadmap.cached is True and second.verified
     # A damaged cache entry is rebuilt, not trusted.
     from core.paths import cache_dir
     for entry in (cache_dir() / "roadmaps").iterdir():
         entry.write_bytes(b"not a roadmap")
-    assert plan(scene, base_dir=tmp_path).stats["roadmap_cached"] is False
+    assert plan(scene, base_dir=tmp_path).roadmap.cached is False
 
 
 def test_cli_plans_the_bridge_and_prints_search_figures(tmp_path, capsys):

@@ -11,6 +11,7 @@ from core.cli import main
 from core.errors import PlanningError
 from core.executors import InlineExecutor
 from core.pipeline import plan, with_settings
+from core.planning import TransitionMethod
 from core.scene import scene_from_dict
 from core.smoothing import qp
 from core.smoothing.smoother import SmoothingOptions, smooth_transition
@@ -34,13 +35,13 @@ def cross_result():
 
 def test_crossing_is_smoothed_verified_and_faster_than_stop_and_go(cross_result):
     t = cross_result.transitions[0]
-    assert cross_result.verified and "smoothed" in t.method
-    history = [h for h in t.search["smoothing"] if h["accepted"]]
-    assert history and all(h["verified"] for h in history)
-    qp_objectives = [h["qp_objective"] for h in history]
+    assert cross_result.verified and t.method is TransitionMethod.SMOOTHED
+    history = [h for h in t.smoothing.rounds if h.accepted]
+    assert history and all(h.verified for h in history)
+    qp_objectives = [h.qp_objective for h in history]
     assert qp_objectives == sorted(qp_objectives, reverse=True)  # each round is feasible for the next
-    assert t.duration < t.search["stop_and_go"]["duration_s"]
-    assert history[-1]["snap_integral"] < t.search["stop_and_go"]["snap_integral"]
+    assert t.duration < t.stop_and_go.duration_s
+    assert history[-1].snap_integral < t.stop_and_go.snap_integral
     # no stops inside the transition: speed is well above zero at every interior join
     traj = cross_result.trajectory
     speeds = np.linalg.norm(traj.evaluate(traj.breaks[1:-1], 1), axis=-1)  # (joins, N)
@@ -74,9 +75,9 @@ def test_solver_failure_names_the_drone_and_keeps_stop_and_go(monkeypatch):
     monkeypatch.setitem(qp.SOLVER_OPTIONS, "max_iter", 5)
     result = plan(_cross_scene(), executor=InlineExecutor())
     t = result.transitions[0]
-    assert result.verified and "stop at every waypoint" in t.method
-    assert "QP failed for drone d" in t.search["smoothing_note"] and "maximum iterations" in t.search["smoothing_note"]
-    assert "kept the stop-and-go plan" in t.search["smoothing_note"]
+    assert result.verified and t.method is TransitionMethod.STOP_AND_GO
+    assert "QP failed for drone d" in t.smoothing.note and "maximum iterations" in t.smoothing.note
+    assert "kept the stop-and-go plan" in t.smoothing.note
 
 
 def test_an_iterate_that_fails_verification_is_never_kept():
@@ -89,7 +90,7 @@ def test_an_iterate_that_fails_verification_is_never_kept():
     outcome = smooth_transition("test", positions, ClearanceModel(spec.semi_axes), spec.semi_axes[0], None,
                                 spec.limits * 0.95, strict, SmoothingOptions(9, 3, {"snap": 1.0}), InlineExecutor())
     assert outcome.pieces is None and "failed verification" in outcome.note
-    assert outcome.history and not outcome.history[0]["accepted"]
+    assert outcome.history and not outcome.history[0].accepted
 
 
 def test_fixed_duration_is_met_or_the_minimum_is_named(cross_result):
@@ -103,10 +104,10 @@ def test_fixed_duration_is_met_or_the_minimum_is_named(cross_result):
 def test_degree_too_low_for_the_objective_falls_back_with_a_reason():
     scene = _cross_scene()
     result = plan(scene, settings=with_settings(scene, degree=5, profile="min_jerk"), executor=InlineExecutor())
-    assert result.verified and "needs planner.degree ≥ 7" in result.transitions[0].search["smoothing_note"]
+    assert result.verified and "needs planner.degree ≥ 7" in result.transitions[0].smoothing.note
     jerk = plan(scene, settings=with_settings(scene, degree=5, profile="min_jerk", objective="jerk"),
                 executor=InlineExecutor())
-    assert jerk.verified and "smoothed" in jerk.transitions[0].method
+    assert jerk.verified and jerk.transitions[0].method is TransitionMethod.SMOOTHED
 
 
 def test_cli_smoothing_options(tmp_path, capsys):

@@ -17,6 +17,7 @@ from ..reading import file_sha256
 from ..scene.io import EXPORT_STAMP_FIELD, dumps_compact, scene_to_dict
 from .documents import EXPORT_FORMAT, ExportStatus, Manifest
 from .gltf import paths_gltf
+from .plan_records import roadmap_record, transition_record
 from .samples_csv import check_sample_rate, write_samples_csv
 from .target import MANIFEST, export_folder
 from .trajectory_json import trajectory_document
@@ -79,8 +80,8 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
                 **stamp, scene=scene.name, duration_s=traj.duration, degree=traj.degree,
                 sample_rate_hz=float(sample_rate_hz), breaks_s=traj.breaks.tolist(), pieces=list(traj.segment_labels),
                 drones=[{"id": d, "file": n} for d, n in zip(traj.drone_ids, names, strict=True)],
-                transitions=[_transition_record(t) for t in result.transitions], settings=asdict(result.settings),
-                roadmap={k: v for k, v in result.stats.items() if k.startswith("roadmap")},
+                transitions=[transition_record(t) for t in result.transitions], settings=asdict(result.settings),
+                roadmap=roadmap_record(result.roadmap),
                 files=[MANIFEST, *files], digests={f: file_sha256(stage / f) for f in files},
             )
             (stage / MANIFEST).write_text(json.dumps(manifest.model_dump(), indent=1), encoding="utf-8")
@@ -91,13 +92,6 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
     for note in kept:
         warn(note)
     return Path(out_dir)
-
-
-def _transition_record(t) -> dict:
-    return {"from": t.source, "to": t.target, "assignment": t.mode, "assignment_method": t.assignment.method,
-            "duration_s": t.duration, "minimum_duration_s": t.minimum_duration, "lower_bound_s": t.lower_bound,
-            "makespan_ratio": t.makespan_ratio, "method": t.method, "spacing_guarantee": t.spacing_guarantee,
-            "search": t.search}
 
 
 __all__ = ["EXPORT_FORMAT", "export_plan", "trajectory_file"]

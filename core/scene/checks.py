@@ -6,9 +6,12 @@ from collections import Counter
 from pathlib import Path
 
 import numpy as np
+import trimesh
 
 from .. import limits
 from ..clearance import ClearanceModel
+from ..errors import SceneError
+from .meshes import SiteMesh, load_site_meshes
 from .model import Scene
 
 MAX_LISTED = 5  # problems listed per kind before "and N more"
@@ -33,9 +36,11 @@ def format_xyz(point: np.ndarray, spec: str = "g") -> str:
     return "(" + ", ".join(format(c, spec) for c in point) + ")"
 
 
-def check_scene(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, str]]:
+def check_scene(scene: Scene, source: str, base_dir: Path, meshes: tuple[SiteMesh, ...] | None = None
+                ) -> list[tuple[str, str]]:
     """Every consistency problem of ``scene`` as ``(location, reason)``; empty when it is sound.
-    ``base_dir`` is the folder mesh paths are relative to."""
+    ``base_dir`` is the folder mesh paths are relative to; the site's meshes are read from there
+    unless already loaded ones are passed as ``meshes``."""
     problems: list[tuple[str, str]] = _check_fleet_size(scene, source)
     if problems:
         return problems
@@ -47,6 +52,31 @@ def check_scene(scene: Scene, source: str, base_dir: Path) -> list[tuple[str, st
     problems += _check_mesh_files(scene, source, base_dir)
     problems += _check_formations(scene, source)
     problems += _check_timeline(scene, source)
+    if scene.site.meshes and not problems:
+        if meshes is None:
+            try:
+                meshes = load_site_meshes(scene.site, base_dir, source)
+            except SceneError as exc:
+                return exc.problems
+        problems += check_points_clear_of_meshes(scene, meshes, source)
+    return problems
+
+
+def check_points_clear_of_meshes(scene: Scene, meshes: tuple[SiteMesh, ...], source: str) -> list[tuple[str, str]]:
+    """Exact (trimesh) check that no formation point's envelope ellipsoid touches a mesh, or lies
+    inside a watertight one; one problem per point, naming the formation, point and mesh."""
+    envelope = scene.fleet.clearance.envelope
+    problems = []
+    for m in meshes:
+        scaled = trimesh.Trimesh(m.mesh.vertices / envelope, m.mesh.faces, process=False)
+        for i, f in enumerate(scene.formations):
+            p = f.positions / envelope
+            distance = trimesh.proximity.closest_point(scaled, p)[1]
+            inside = scaled.contains(p) if m.watertight else np.zeros(len(p), dtype=bool)
+            for k in np.nonzero(inside | (distance < 1.0))[0]:
+                why = "is inside" if inside[k] else f"is too close to ({distance[k]:.2f} of the clearance)"
+                problems.append((f"{source}: formations[{i}] ({f.name!r}).points[{k}]",
+                                 f"{format_xyz(f.positions[k], '.2f')} {why} mesh {m.name!r}"))
     return problems
 
 

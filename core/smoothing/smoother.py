@@ -42,14 +42,34 @@ class SmoothingOptions:
     weights: dict[str, float]
 
 
+@dataclass(frozen=True)
+class SmoothingRound:
+    """Figures of one QP round. The QP objective is in the solver's scaled units; the rest, for a
+    round that produced curves: duration (s), objective and ∫‖snap‖² of the timed curves, and the
+    verifier's verdict, peak acceleration (m/s²), peak snap (m/s⁴) and smallest separation ratio."""
+
+    iteration: int
+    qp_objective: float
+    accepted: bool
+    qp_iterations: int
+    qp_seconds: float
+    duration_s: float | None = None
+    objective: float | None = None
+    snap_integral: float | None = None
+    verified: bool | None = None
+    peak_acceleration: float | None = None
+    peak_snap: float | None = None
+    min_separation_ratio: float | None = None
+
+
 @dataclass
 class SmoothingOutcome:
     """Result for one transition: ``pieces`` ``(N, K, n + 1, 3)`` on ``durations`` ``(K,)`` s (None
-    when no iterate was accepted), one figures dict per iteration, and ``note`` when something failed."""
+    when no iterate was accepted), one :class:`SmoothingRound` per round, and ``note`` when something failed."""
 
     durations: np.ndarray | None
     pieces: np.ndarray | None
-    history: list[dict] = field(default_factory=list)
+    history: list[SmoothingRound] = field(default_factory=list)
     note: str | None = None
     seconds: dict[str, float] = field(default_factory=dict)
 
@@ -151,18 +171,18 @@ def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) 
 
 
 def _figures(it: int, objective: float, durations, pieces, solutions: list[DroneSolution], *, report=None,
-             accepted: bool, weights: dict[str, float] | None = None) -> dict:
-    out = {"iteration": it + 1, "qp_objective": objective, "accepted": accepted,
-           "qp_iterations": int(sum(s.iterations for s in solutions)),
-           "qp_seconds": float(sum(s.seconds for s in solutions))}
+             accepted: bool, weights: dict[str, float] | None = None) -> SmoothingRound:
+    timed = {}
     if durations is not None:
-        out.update(duration_s=float(durations.sum()), objective=trajectory_cost(pieces, durations, weights),
-                   snap_integral=trajectory_cost(pieces, durations, {"snap": 1.0}))
+        timed = dict(duration_s=float(durations.sum()), objective=trajectory_cost(pieces, durations, weights),
+                     snap_integral=trajectory_cost(pieces, durations, {"snap": 1.0}))
     if report is not None:
-        out.update(verified=report.ok, peak_acceleration=max(d.peak_acceleration for d in report.drones),
-                   peak_snap=max(d.peak_snap for d in report.drones),
-                   min_separation_ratio=min(d.min_separation_ratio for d in report.drones))
-    return out
+        timed.update(verified=report.ok, peak_acceleration=max(d.peak_acceleration for d in report.drones),
+                     peak_snap=max(d.peak_snap for d in report.drones),
+                     min_separation_ratio=min(d.min_separation_ratio for d in report.drones))
+    return SmoothingRound(iteration=it + 1, qp_objective=objective, accepted=accepted,
+                          qp_iterations=int(sum(s.iterations for s in solutions)),
+                          qp_seconds=float(sum(s.seconds for s in solutions)), **timed)
 
 
 def _failure_note(where: str, it: int, failed: list[DroneSolution], ids, have_iterate: bool) -> str:

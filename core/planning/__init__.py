@@ -1,0 +1,22 @@
+"""Planning one transition: its problem, the shared context, the straight and roadmap paths,
+the multi-agent solver interface and the typed results (see DEVELOPERS.md, "Data flow")."""
+
+from .context import AttachedRoadmap, PlanningContext
+from .problem import TransitionProblem
+from .results import (
+    RoadmapFigures,
+    SearchFigures,
+    SmoothingFigures,
+    StopAndGoFigures,
+    TransitionMethod,
+    TransitionResult,
+)
+from .roadmap_path import plan_on_roadmap, roadmap_assignment
+from .solvers import EcbsSolver, MultiAgentSolver, SearchOutcome
+from .straight import StraightAttempt, plan_straight
+
+__all__ = [
+    "AttachedRoadmap", "EcbsSolver", "MultiAgentSolver", "PlanningContext", "RoadmapFigures", "SearchFigures",
+    "SearchOutcome", "SmoothingFigures", "StopAndGoFigures", "StraightAttempt", "TransitionMethod",
+    "TransitionProblem", "TransitionResult", "plan_on_roadmap", "plan_straight", "roadmap_assignment",
+]

@@ -1,0 +1,148 @@
+"""Everything planning a scene's transitions shares: the site's meshes, the clearance field, the
+roadmap with the formation points attached, the clearance model, limits and settings.
+
+A :class:`PlanningContext` is built once per plan, reused by the next plan of the same site,
+fleet and settings (the designer re-plans after an edit), and pickled to worker processes or
+cluster workers that plan transitions in parallel. Its heavy parts are built on first need.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import SceneError
+from ..obstacles import ClearanceField
+from ..progress import CancelToken, ProgressCallback, no_progress
+from ..roadmap.build import RoadmapSettings, attach_points, build_roadmap
+from ..roadmap.cache import cached_roadmap, roadmap_key
+from ..roadmap.graph import Roadmap
+from ..scene.checks import format_xyz
+from ..scene.meshes import SiteMesh, load_site_meshes
+from ..scene.model import PlannerSettings, Scene
+from ..timing import PROFILES, Profile
+from ..verify import VerificationSpec, spec_from_scene
+from .results import RoadmapFigures
+
+
+@dataclass(frozen=True, eq=False)
+class AttachedRoadmap:
+    """The roadmap with every formation point attached: ``vertex_of[formation name]`` ``(P,)``
+    gives the vertex of each of its points; ``figures`` describe it."""
+
+    roadmap: Roadmap
+    vertex_of: dict[str, np.ndarray]
+    figures: RoadmapFigures
+
+
+class PlanningContext:
+    """Planning state of one scene (mesh paths relative to ``base_dir``; ``source`` names the
+    scene file in messages). Raises :class:`SceneError` at once when a mesh cannot be read.
+
+    The field and roadmap use the fleet's envelope ellipsoid and its largest pair clearance, so
+    one roadmap is conservative for every drone.
+    """
+
+    def __init__(self, scene: Scene, settings: PlannerSettings, base_dir: Path, *, source: str = "scene",
+                 use_cache: bool = True):
+        self.scene, self.settings, self.base_dir, self.source = scene, settings, Path(base_dir), source
+        self.use_cache = use_cache
+        self.clearance = scene.fleet.clearance
+        self.profile: Profile = PROFILES[settings.profile]
+        #: (N, 3) the speed and acceleration limits the planner may use (``limit_margin`` applied).
+        self.limits = scene.fleet.limits * settings.limit_margin
+        self.meshes: tuple[SiteMesh, ...] = load_site_meshes(scene.site, self.base_dir, source)
+        self.spec: VerificationSpec = spec_from_scene(scene, meshes=self.meshes)
+        #: Usable-but-suspicious findings (meshes, cache), for the plan summary.
+        self.warnings: list[str] = [f"mesh {m.name!r}: {w}" for m in self.meshes for w in m.warnings]
+        #: Seconds spent building the shared parts (obstacle field, roadmap, attaching points).
+        self.seconds: dict[str, float] = {}
+        self._attached: tuple[tuple[bytes, ...], AttachedRoadmap] | None = None
+
+    def reusable_for(self, scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool) -> bool:
+        """Whether a plan of ``scene`` may use this context (same site, fleet and settings; the
+        formations and timeline may differ)."""
+        return (scene.site == self.scene.site and scene.fleet == self.scene.fleet and settings == self.settings
+                and Path(base_dir) == self.base_dir and use_cache == self.use_cache)
+
+    def for_scene(self, scene: Scene, source: str) -> PlanningContext:
+        """This context for an edited ``scene`` of the same site and fleet (formations may differ)."""
+        self.scene, self.source = scene, source
+        return self
+
+    @property
+    def has_obstacles(self) -> bool:
+        return bool(self.scene.site.meshes or self.scene.site.keep_out)
+
+    @cached_property
+    def field(self) -> ClearanceField:
+        """The conservative clearance field of the site for the envelope ellipsoid."""
+        t0 = time.perf_counter()
+        site = self.scene.site
+        field = ClearanceField(self.clearance.envelope, self.meshes, site.flight_volume.bounds,
+                               [b.bounds for b in site.keep_out], self.settings.obstacle_pitch)
+        self.seconds["obstacle field"] = time.perf_counter() - t0
+        return field
+
+    def legs_clear(self, starts: np.ndarray, goals: np.ndarray) -> bool:
+        """Whether every straight leg ``starts`` → ``goals`` ``(N, 3)`` keeps clear of obstacles."""
+        return not self.has_obstacles or bool(self.field.segments_clear(starts, goals).all())
+
+    def roadmap(self, progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> AttachedRoadmap:
+        """The roadmap (from the cache when it holds one) with the current formations attached;
+        built on the first call, again only when the formations change."""
+        formations = self.scene.formations
+        key = tuple(f.positions.tobytes() for f in formations)
+        if self._attached is not None and self._attached[0] == key:
+            return self._attached[1]
+        s, field, pair_envelope = self.settings, self.field, self.clearance.pair_envelope
+        rs = RoadmapSettings(s.roadmap_samples, s.roadmap_neighbours, s.spanner_stretch, s.roadmap_seed)
+        t0 = time.perf_counter()
+        base, cached, cache_warnings = cached_roadmap(
+            roadmap_key(field, pair_envelope, rs),
+            lambda: build_roadmap(field, pair_envelope, rs, progress=progress, cancel=cancel), self.use_cache)
+        self.warnings += cache_warnings
+        self.seconds["roadmap"] = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        points = np.concatenate([f.positions for f in formations])
+        self._check_points_in_field(points)
+        full, index = attach_points(base, points, field, pair_envelope, s.roadmap_neighbours)
+        self.seconds["roadmap attach"] = time.perf_counter() - t0
+        splits = np.cumsum([len(f.positions) for f in formations])[:-1]
+        attached = AttachedRoadmap(full, dict(zip((f.name for f in formations), np.split(index, splits), strict=True)),
+                                   RoadmapFigures(full.n_vertices, len(full.edges), full.conflicts.count, cached))
+        self._attached = (key, attached)
+        return attached
+
+    @property
+    def roadmap_figures(self) -> RoadmapFigures | None:
+        """Figures of the roadmap built so far (None before the first :meth:`roadmap` call)."""
+        return None if self._attached is None else self._attached[1].figures
+
+    def _check_points_in_field(self, points: np.ndarray) -> None:
+        blocked = np.nonzero(self.field.margins(points) < 0)[0]
+        if len(blocked) == 0:
+            return
+        what = self.field.blocking(points[blocked])
+        spans = [(f.name, len(f.positions)) for f in self.scene.formations]
+        problems = []
+        for k, why in zip(blocked, what, strict=True):
+            index, local = _locate(spans, int(k))
+            problems.append((f"{self.source}: formations[{index}] ({spans[index][0]!r}).points[{local}]",
+                             f"{format_xyz(points[k], '.2f')} is within the planner's conservative clearance of "
+                             f"{why} (field error bound {self.field.error_bound:.2f} clearance radii); move it a "
+                             "little further away"))
+        raise SceneError(problems)
+
+
+def _locate(spans: list[tuple[str, int]], k: int) -> tuple[int, int]:
+    """Formation index and point index of row ``k`` of the formations' points stacked in order."""
+    for index, (_name, count) in enumerate(spans):
+        if k < count:
+            return index, k
+        k -= count
+    raise IndexError(k)

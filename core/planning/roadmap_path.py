@@ -1,0 +1,153 @@
+"""Transitions whose straight lines are blocked: assignment by roadmap path length, multi-agent
+search, an independent discrete check, the stop-and-go baseline, then corridor smoothing."""
+
+from __future__ import annotations
+
+from concurrent.futures import Executor
+
+import numpy as np
+
+from ..assignment import Assignment, assign_by_cost
+from ..errors import PlanningError
+from ..executors import InlineExecutor
+from ..objectives import parse_objective
+from ..progress import CancelToken, ProgressCallback, no_progress
+from ..roadmap.graph import Roadmap
+from ..scene.checks import format_xyz
+from ..smoothing.smoother import SmoothingOptions, smooth_transition
+from ..smoothing.terms import trajectory_cost
+from ..straight_line import straight_leg_points
+from ..timing import MIN_TRANSITION_DURATION, Profile, minimum_duration
+from ..trajectory import FleetTrajectory
+from ..verify.checker import sampled_peaks
+from ..verify.discrete import check_discrete_plan
+from .context import PlanningContext
+from .problem import TransitionProblem
+from .results import SmoothingFigures, StopAndGoFigures, TransitionMethod, TransitionResult
+from .solvers import MultiAgentSolver
+from .timing import requested_duration
+
+
+def roadmap_assignment(problem: TransitionProblem, context: PlanningContext,
+                       progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> Assignment:
+    """Goal point per drone: labeled keeps the order; unlabeled and grouped minimise the sum of
+    roadmap path lengths (Hungarian method). Raises :class:`PlanningError` naming the drones and
+    points no collision-free path connects."""
+    attached = context.roadmap(progress, cancel)
+    roadmap, vertex_of = attached.roadmap, attached.vertex_of
+    starts = vertex_of[problem.source][problem.occupied]
+    goal_vertices = vertex_of[problem.target]
+    if problem.mode == "labeled":
+        chosen = Assignment(np.arange(len(starts)), float("nan"), "labeled", 0.0)
+    else:
+        cost = roadmap.path_lengths(starts)[:, goal_vertices]
+        grouped = problem.mode == "grouped"
+        try:
+            chosen = assign_by_cost(cost, problem.start_groups if grouped else None,
+                                    problem.goal_groups if grouped else None)
+        except ValueError:
+            nearest = np.argmin(np.where(np.isfinite(cost), cost, np.inf), axis=1)
+            _check_reachable(problem, context, roadmap, starts, goal_vertices[nearest], nearest)
+            cut_off = np.nonzero(~np.isfinite(cost).any(axis=0))[0]
+            points = ", ".join(f"{_point(problem, context, k)} at "
+                               f"{format_xyz(roadmap.vertices[goal_vertices[k]], '.2f')}" for k in cut_off[:5])
+            raise PlanningError(
+                f"{problem.where}: no assignment lets every drone reach a goal on the roadmap"
+                + (f"; no drone can reach {points}" + (f" and {len(cut_off) - 5} more" if len(cut_off) > 5 else "")
+                   + " (boxed in by obstacles or keep-out boxes?)" if len(cut_off) else "")) from None
+    _check_reachable(problem, context, roadmap, starts, goal_vertices[chosen.goal_of], chosen.goal_of)
+    return chosen
+
+
+def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bound: float, context: PlanningContext,
+                    solver: MultiAgentSolver, executor: Executor | None = None, *,
+                    progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> TransitionResult:
+    """Plan ``problem`` on the roadmap with goals fixed by ``assignment``: search, discrete check,
+    stop-and-go pieces, then smoothing (per-drone QPs on ``executor``, inline when None) unless
+    the settings turn it off. ``lower_bound`` (s) is the straight-line bound reported beside it."""
+    attached = context.roadmap(progress, cancel)
+    roadmap, vertex_of = attached.roadmap, attached.vertex_of
+    starts = vertex_of[problem.source][problem.occupied]
+    goals = vertex_of[problem.target][assignment.goal_of]
+    ids, settings = context.scene.fleet.ids, context.settings
+    found = solver.solve(roadmap, starts, goals, ids, time_limit=settings.search_time_limit, progress=progress,
+                         cancel=cancel)
+    positions = _step_positions(roadmap, found.paths)
+    conflicts = check_discrete_plan(positions, context.clearance)
+    if conflicts:
+        c = conflicts[0]
+        raise PlanningError(f"{problem.where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
+                            f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
+    positions = _moving_steps(positions)
+    durations, pieces = _stop_and_go(positions, context.profile, settings.degree, context.limits)
+    baseline = _baseline_figures(durations, pieces, ids)
+    method, smoothing = TransitionMethod.STOP_AND_GO, None
+    if settings.smoothing and len(durations):
+        options = SmoothingOptions(settings.degree, settings.smoothing_iterations, parse_objective(settings.objective))
+        outcome = smooth_transition(problem.where, positions, context.clearance, context.clearance.envelope,
+                                    context.field, context.limits, context.spec, options,
+                                    executor or InlineExecutor(), progress=progress, cancel=cancel)
+        smoothing = SmoothingFigures(tuple(outcome.history), outcome.note, outcome.seconds)
+        if outcome.pieces is not None:
+            method, durations, pieces = TransitionMethod.SMOOTHED, outcome.durations, outcome.pieces
+    needed = max(float(durations.sum()), MIN_TRANSITION_DURATION)
+    duration = requested_duration(problem.where, problem.duration, needed,
+                                  "the roadmap plan around the obstacles needs")
+    return TransitionResult(problem, method, assignment, durations * (duration / needed), pieces, duration, needed,
+                            lower_bound, False, found.figures, baseline, smoothing)
+
+
+def _point(problem: TransitionProblem, context: PlanningContext, k: int) -> str:
+    index = [f.name for f in context.scene.formations].index(problem.target)
+    return f"formations[{index}] ({problem.target!r}).points[{k}]"
+
+
+def _check_reachable(problem: TransitionProblem, context: PlanningContext, roadmap: Roadmap, starts: np.ndarray,
+                     goals: np.ndarray, goal_index: np.ndarray) -> None:
+    label = roadmap.component_labels()
+    stuck = np.nonzero(label[starts] != label[goals])[0]
+    if len(stuck) == 0:
+        return
+    ids = context.scene.fleet.ids
+    names = ", ".join(f"drone {ids[k]} → {_point(problem, context, goal_index[k])} at "
+                      f"{format_xyz(roadmap.vertices[goals[k]], '.2f')}" for k in stuck[:5])
+    more = f" and {len(stuck) - 5} more" if len(stuck) > 5 else ""
+    raise PlanningError(f"{problem.where}: unreachable goal: no collision-free roadmap path for {names}{more}. The "
+                        "passage may be narrower than the clearance; try more roadmap samples or a finer "
+                        "planner.obstacle_pitch.")
+
+
+def _step_positions(roadmap: Roadmap, paths: list[tuple[int, ...]]) -> np.ndarray:
+    """``(N, K + 1, 3)`` vertex positions per step, each path padded by waiting at its goal."""
+    steps = max(len(p) for p in paths)
+    padded = np.array([list(p) + [p[-1]] * (steps - len(p)) for p in paths])
+    return roadmap.vertices[padded]
+
+
+def _moving_steps(positions: np.ndarray) -> np.ndarray:
+    """``positions`` ``(N, K + 1, 3)`` without the steps in which nobody moves."""
+    moves = np.any(np.abs(np.diff(positions, axis=1)) > 0, axis=(0, 2))
+    return positions[:, np.r_[True, moves]]
+
+
+def _baseline_figures(durations: np.ndarray, pieces: np.ndarray, ids) -> StopAndGoFigures:
+    """Duration, sampled peak acceleration and ∫‖snap‖² of stop-and-go pieces."""
+    if not len(durations):
+        return StopAndGoFigures(0.0, 0.0, 0.0)
+    traj = FleetTrajectory(np.r_[0.0, np.cumsum(durations)], pieces, ids)
+    return StopAndGoFigures(float(durations.sum()), float(sampled_peaks(traj)["acceleration"].max()),
+                            trajectory_cost(pieces, durations, {"snap": 1.0}))
+
+
+def _stop_and_go(positions: np.ndarray, profile: Profile, degree: int, limits: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """Rest-to-rest pieces between consecutive steps ``(N, K + 1, 3)`` (somebody moves in each):
+    durations ``(K,)`` and control points ``(N, K, n + 1, 3)``."""
+    durations, pieces = [], []
+    for k in range(positions.shape[1] - 1):
+        a, b = positions[:, k], positions[:, k + 1]
+        durations.append(max(float(minimum_duration(b - a, limits, profile).max()), MIN_TRANSITION_DURATION))
+        pieces.append(straight_leg_points(a, b, profile, degree))
+    if not pieces:
+        return np.zeros(0), np.zeros((positions.shape[0], 0, degree + 1, 3))
+    return np.asarray(durations), np.stack(pieces, axis=1)
