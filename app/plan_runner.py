@@ -21,14 +21,16 @@ class _PlanJob(QObject):
     failed = Signal(str)
     cancelled = Signal()
 
-    def __init__(self, scene: Scene, base_dir, workers: int | None, cancel: CancelToken):
+    def __init__(self, scene: Scene, base_dir, workers: int | None, cancel: CancelToken, previous: PlanResult | None,
+                 source: str):
         super().__init__()
         self.scene, self.base_dir, self.workers, self.cancel = scene, base_dir, workers, cancel
+        self.previous, self.source = previous, source
 
     def run(self) -> None:
         try:
             result = plan(self.scene, base_dir=self.base_dir, progress=self.progress.emit, cancel=self.cancel,
-                          workers=self.workers)
+                          workers=self.workers, previous=self.previous, source=self.source)
         except Cancelled:
             self.cancelled.emit()
         except SkyloomError as exc:
@@ -70,7 +72,9 @@ class PlanRunner(QObject):
             return False
         self._cancel = CancelToken()
         self._thread = QThread()
-        self._job = _PlanJob(self.document.scene, self.document.base_dir, self.document.workers, self._cancel)
+        # The current plan lends its context and every transition an edit did not touch.
+        self._job = _PlanJob(self.document.scene, self.document.base_dir, self.document.workers, self._cancel,
+                             self.document.plan, self.document.source_name)
         self._job.moveToThread(self._thread)
         self._thread.started.connect(self._job.run)
         self._job.progress.connect(self.progress)

@@ -5,6 +5,7 @@ of one line item per drone, in the same process."""
 from __future__ import annotations
 
 import statistics
+import sys
 import time
 
 import numpy as np
@@ -40,10 +41,10 @@ def _render(app, view) -> float:
     return time.perf_counter() - t0
 
 
-def main() -> None:
+def main(n: int = 1000) -> None:
     prepare_qt()
     app = QApplication([])
-    scene = thousand_drone_scene()
+    scene = thousand_drone_scene(n)
     result = plan(scene, executor=InlineExecutor())
     document = Document(scene)
     view = SiteView(document)
@@ -85,4 +86,4 @@ def main() -> None:
 
 
 if __name__ == "__main__":
-    main()
+    main(50 if "--smoke" in sys.argv[1:] else 1000)

@@ -7,6 +7,7 @@ Run: ``python bench/bench_obstacles.py`` (uses the sample scenes; builds without
 from __future__ import annotations
 
 import math
+import sys
 import time
 from pathlib import Path
 
@@ -89,15 +90,19 @@ def scene_benchmark(name: str) -> None:
         extra = ""
         if t.search:
             f = t.search
-            extra = (f"; ECBS w = {f['w']:g}: {f['search_nodes']} nodes expanded, {f['low_level_expansions']} "
-                     f"low-level expansions, {f['search_s']:.2f} s, sum of costs {f['sum_of_costs']} "
-                     f"(lower bound {f['cost_lower_bound']})")
-        print(f"  {t.source} → {t.target}: makespan {t.duration:.1f} s = {t.makespan_ratio:.2f}× the straight-line "
-              f"lower bound{extra}")
+            extra = (f"; {f.solver} w = {f.w:g}: {f.nodes_expanded} nodes expanded, {f.low_level_expansions} "
+                     f"low-level expansions, {f.seconds:.2f} s, sum of costs {f.sum_of_costs} "
+                     f"(lower bound {f.cost_lower_bound})")
+        print(f"  {t.problem.source} → {t.problem.target}: makespan {t.duration:.1f} s = {t.makespan_ratio:.2f}× "
+              f"the straight-line lower bound{extra}")
 
 
 if __name__ == "__main__":
-    roadmap_benchmark()
-    roadmap_benchmark(samples=8000)
-    scene_benchmark("courtyard_swap.json")
-    scene_benchmark("bridge_inspection.json")
+    if "--smoke" in sys.argv[1:]:  # seconds, for CI
+        roadmap_benchmark(samples=300)
+        scene_benchmark("bridge_inspection.json")
+    else:
+        roadmap_benchmark()
+        roadmap_benchmark(samples=8000)
+        scene_benchmark("courtyard_swap.json")
+        scene_benchmark("bridge_inspection.json")

@@ -2,12 +2,14 @@
 process), the direct sparse OSQP QP vs the cvxpy formulation of the same QP (build + solve, same
 problems), and smoothed vs stop-and-go figures per round.
 
-Run: ``python bench/bench_smoothing.py`` (uses the sample scenes).
+Run: ``python bench/bench_smoothing.py`` (uses the sample scenes; ``--smoke``: the bridge instead of
+the courtyard, 2 QPs, for CI).
 """
 
 from __future__ import annotations
 
 import statistics
+import sys
 import time
 import warnings
 from pathlib import Path
@@ -24,9 +26,9 @@ from core.smoothing.reference import reference_problem
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_scenes"
 
 
-def courtyard_benchmark() -> list[qp.DroneProblem]:
-    """Plans the courtyard with 2 worker processes and inline; returns the first round's QPs."""
-    scene = load_scene(SAMPLES / "courtyard_swap.json")
+def courtyard_benchmark(name: str = "courtyard_swap.json") -> list[qp.DroneProblem]:
+    """Plans the courtyard (or ``name``) with 2 worker processes and inline; returns the first round's QPs."""
+    scene = load_scene(SAMPLES / name)
     plan(scene, base_dir=SAMPLES, executor=InlineExecutor())  # warm the roadmap cache
     captured: list[qp.DroneProblem] = []
     original = smoother.solve_drone
@@ -40,22 +42,23 @@ def courtyard_benchmark() -> list[qp.DroneProblem]:
         finally:
             smoother.solve_drone = original
         t = result.transitions[0]
-        sec = t.search["smoothing_seconds"]
-        print(f"courtyard, 32 drones, {label}: smoothing {result.stage_seconds['smoothing']:.2f} s "
+        sec = t.smoothing.seconds
+        print(f"{scene.name}, {len(scene.fleet.drones)} drones, {label}: search and smoothing "
+              f"{result.stage_seconds['search and smoothing']:.2f} s "
               f"(corridors {sec['corridors']:.2f} s, QPs {sec['qp']:.2f} s, verification {sec['verification']:.2f} s), "
               f"whole plan {total:.2f} s, verified {result.verified}")
-    base = t.search["stop_and_go"]
-    print(f"  stop-and-go: {base['duration_s']:.2f} s, peak acceleration {base['peak_acceleration']:.2f} m/s², "
-          f"∫|snap|² {base['snap_integral']:.4g}")
-    for h in t.search["smoothing"]:
-        if "duration_s" in h:
-            print(f"  round {h['iteration']}: makespan ratio {h['duration_s'] / base['duration_s']:.3f}, peak "
-                  f"acceleration ratio {h['peak_acceleration'] / base['peak_acceleration']:.3f}, ∫|snap|² "
-                  f"{h['snap_integral']:.4g} (ratio {h['snap_integral'] / base['snap_integral']:.4f}), QP objective "
-                  f"{h['qp_objective']:.4g}, {h['qp_iterations']} OSQP iterations")
+    base = t.stop_and_go
+    print(f"  stop-and-go: {base.duration_s:.2f} s, peak acceleration {base.peak_acceleration:.2f} m/s², "
+          f"∫|snap|² {base.snap_integral:.4g}")
+    for h in t.smoothing.rounds:
+        if h.duration_s is not None:
+            print(f"  round {h.iteration}: makespan ratio {h.duration_s / base.duration_s:.3f}, peak "
+                  f"acceleration ratio {h.peak_acceleration / base.peak_acceleration:.3f}, ∫|snap|² "
+                  f"{h.snap_integral:.4g} (ratio {h.snap_integral / base.snap_integral:.4f}), QP objective "
+                  f"{h.qp_objective:.4g}, {h.qp_iterations} OSQP iterations")
         else:
-            print(f"  round {h['iteration']}: no improvement, stopped")
-    return captured[:32]
+            print(f"  round {h.iteration}: no improvement, stopped")
+    return captured[:len(scene.fleet.drones)]
 
 
 def osqp_vs_cvxpy(problems: list[qp.DroneProblem], count: int = 6) -> None:
@@ -88,4 +91,7 @@ def osqp_vs_cvxpy(problems: list[qp.DroneProblem], count: int = 6) -> None:
 
 
 if __name__ == "__main__":
-    osqp_vs_cvxpy(courtyard_benchmark())
+    if "--smoke" in sys.argv[1:]:
+        osqp_vs_cvxpy(courtyard_benchmark("bridge_inspection.json"), count=2)
+    else:
+        osqp_vs_cvxpy(courtyard_benchmark())

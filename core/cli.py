@@ -6,6 +6,7 @@ import argparse
 import importlib
 import math
 import sys
+from contextlib import nullcontext
 from pathlib import Path
 
 from . import SAFETY_CAUTION, __version__, lifecycle
@@ -71,6 +72,9 @@ def _parser() -> argparse.ArgumentParser:
                     help="export folder: a new or empty folder, or an earlier Skyloom export (replaced only once "
                          "the new export is complete); anything else is refused")
     pl.add_argument("--rate", type=_rate, default=10.0, metavar="HZ", help="samples.csv rate in Hz (default 10)")
+    pl.add_argument("--samples", choices=["csv", "parquet"], default="csv",
+                    help="sampled states as samples.csv (default) or a compact columnar samples.parquet "
+                         "(large fleets; needs pip install 'skyloom[columnar]')")
     pl.add_argument("--degree", type=int, help="Bézier degree of each piece (default: the scene's, usually 7)")
     pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")
     pl.add_argument("--export-unverified", action="store_true",
@@ -88,7 +92,11 @@ def _parser() -> argparse.ArgumentParser:
                     help="smoothing objective: snap, jerk, acceleration, energy, or weights such as "
                          "'acceleration=1,snap=0.01' (default: the scene's, usually snap)")
     pl.add_argument("--workers", type=_workers, metavar="N",
-                    help="processes for the per-drone smoothing QPs (default: all CPUs; 1 = no extra processes)")
+                    help="worker processes for roadmap transitions and their per-drone QPs (default: all CPUs; "
+                         "1 = no extra processes)")
+    pl.add_argument("--cluster", metavar="ADDRESS",
+                    help="run that work on a Dask cluster instead: a scheduler address (tcp://host:8786), or "
+                         "'local' for a LocalCluster on this machine (needs pip install 'skyloom[cluster]')")
     pl.add_argument("--quiet", action="store_true", help="no progress bar")
 
     ck = sub.add_parser("check", help="re-verify an export folder on its own",
@@ -141,6 +149,7 @@ def _progress(args):
 
 
 def _plan(args) -> int:
+    from .executors import cluster_executor
     from .pipeline import plan, with_settings  # here, so that check/info never load the planner
     from .plan_summary import plan_summary_lines
 
@@ -151,8 +160,9 @@ def _plan(args) -> int:
                              roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
                              search_time_limit=args.time_limit, smoothing_iterations=args.iterations,
                              objective=args.objective, smoothing=False if args.no_smoothing else None)
-    result = plan(scene, settings=settings, base_dir=args.scene.parent, use_cache=not args.no_cache,
-                  progress=progress, workers=args.workers, source=args.scene.name)
+    with cluster_executor(args.cluster) if args.cluster else nullcontext() as executor:
+        result = plan(scene, settings=settings, base_dir=args.scene.parent, use_cache=not args.no_cache,
+                      progress=progress, executor=executor, workers=args.workers, source=args.scene.name)
     if isinstance(progress, TerminalProgress):
         progress.close()
     print("\n".join(plan_summary_lines(result)))
@@ -164,7 +174,8 @@ def _plan(args) -> int:
             print(f"  ... and {len(result.report.violations) - 20} more")
     if result.report.ok or args.export_unverified:
         export_plan(result, args.out, sample_rate_hz=args.rate, allow_unverified=args.export_unverified,
-                    protect=[args.scene], warn=lambda note: print(f"warning: {note}", file=sys.stderr))
+                    protect=[args.scene], warn=lambda note: print(f"warning: {note}", file=sys.stderr),
+                    samples=args.samples)
         print(f"wrote {args.out}/" + ("" if result.report.ok else " (marked UNVERIFIED)"))
     else:
         print(f"nothing written to {args.out} (use --export-unverified to write it marked UNVERIFIED)")

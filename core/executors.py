@@ -11,9 +11,12 @@ from concurrent.futures import Executor, Future, ProcessPoolExecutor
 from contextlib import contextmanager
 
 from . import lifecycle
+from .errors import PlanningError
 
 #: How often a worker process looks whether the process that started it is still alive (s).
 PARENT_POLL_S = 0.25
+#: How long connecting to a Dask scheduler may take (s).
+CLUSTER_CONNECT_S = 30.0
 
 
 class InlineExecutor(Executor):
@@ -83,3 +86,35 @@ def plan_executor(executor: Executor | None = None, workers: int | None = None) 
         pool.shutdown(wait=True)
     finally:
         forget()
+
+
+@contextmanager
+def cluster_executor(address: str) -> Iterator[Executor]:
+    """An executor on a Dask distributed cluster: ``"local"`` starts a LocalCluster of
+    :func:`default_workers` single-threaded worker processes on this machine; anything else is a
+    scheduler address (``tcp://host:8786``). Closed on exit. Raises :class:`PlanningError` when
+    dask.distributed is missing (``pip install 'skyloom[cluster]'``) or the scheduler is unreachable."""
+    try:
+        from dask.distributed import Client, LocalCluster
+    except ImportError:
+        raise PlanningError("--cluster needs dask.distributed: pip install 'skyloom[cluster]'") from None
+    cluster = None
+    try:
+        if address == "local":
+            cluster = LocalCluster(n_workers=default_workers(), threads_per_worker=1, processes=True,
+                                   dashboard_address=None)
+            client = Client(cluster)
+        else:
+            client = Client(address, timeout=CLUSTER_CONNECT_S)
+    except (OSError, TimeoutError) as exc:
+        if cluster is not None:
+            cluster.close()
+        raise PlanningError(f"--cluster {address}: cannot reach the Dask scheduler ({exc})") from None
+    forget = lifecycle.on_emergency_exit(client.close)
+    try:
+        yield client.get_executor()
+    finally:
+        forget()
+        client.close()
+        if cluster is not None:
+            cluster.close()

@@ -58,6 +58,8 @@ class PlanResult:
     warnings: tuple[str, ...] = ()
     base_dir: Path = Path(".")
     context: PlanningContext | None = None
+    #: Indices of the transitions taken over unchanged from the previous plan.
+    reused: tuple[int, ...] = ()
 
     @property
     def verified(self) -> bool:
@@ -120,8 +122,10 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
     timings["verification"] = time.perf_counter() - t0
     timings.update(context.seconds)
     roadmap = context.roadmap_figures if any(r.method.used_roadmap for r in results) else None
+    reused = tuple(k for k, r in enumerate(results) if previous is not None and k < len(previous.transitions)
+                   and r is previous.transitions[k])
     return PlanResult(scene, settings, trajectory, results, report, timings, roadmap, tuple(context.warnings),
-                      base_dir, context)
+                      base_dir, context, reused)
 
 
 def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, timings: dict[str, float],

@@ -41,5 +41,8 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
         r = result.roadmap
         cached = " (from cache)" if r.cached else ""
         lines.append(f"roadmap: {r.vertices} vertices, {r.edges} edges, {r.conflicts} conflicting action pairs{cached}")
+    if result.reused:
+        lines.append("taken over unchanged from the previous plan: transition(s) "
+                     + ", ".join(str(k) for k in result.reused))
     lines.append("stage times: " + ", ".join(f"{k} {v:.2f} s" for k, v in result.stage_seconds.items()))
     return lines

@@ -208,3 +208,26 @@ def test_terminal_progress_draws_a_bar_on_a_terminal():
     assert "[#####-----]  50% separation" in stream.getvalue()
 
 
+
+
+def test_parquet_samples_match_the_csv_and_are_audited(lab_result, tmp_path, capsys):
+    """samples.parquet holds the CSV's rows as columns (read back with pyarrow); check audits it too."""
+    pq = pytest.importorskip("pyarrow.parquet")
+    csv_out = export_plan(lab_result, tmp_path / "csv")
+    pq_out = export_plan(lab_result, tmp_path / "parquet", samples="parquet")
+    table = pq.read_table(pq_out / "samples.parquet")
+    assert table.column_names == ["drone", "t", "x", "y", "z", "vx", "vy", "vz", "ax", "ay", "az"]
+    lines = (csv_out / "samples.csv").read_text().splitlines()
+    rows = [r.split(",") for r in lines if not r.startswith(("#", "drone"))]
+    assert table.column("drone").to_pylist() == [r[0] for r in rows]
+    np.testing.assert_allclose(np.column_stack([table.column(k).to_numpy() for k in range(1, 11)]),
+                               np.array([[float(x) for x in r[1:]] for r in rows]), atol=5e-7)
+    assert main(["check", str(pq_out), "--quiet"]) == 0
+    capsys.readouterr()
+    values = table.column("z").to_numpy().copy()
+    values[5] += 0.01
+    pq.write_table(table.set_column(4, "z", [values]).replace_schema_metadata(table.schema.metadata),
+                   pq_out / "samples.parquet")
+    assert main(["check", str(pq_out), "--quiet"]) == 1
+    text = capsys.readouterr().out
+    assert "samples.parquet (drone N1): at t = 0.500 s, position z" in text

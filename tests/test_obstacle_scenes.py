@@ -1,6 +1,7 @@
 """Obstacle scenes end to end: sample plans verified, the verifier's mesh check, bad input, cache."""
 
 import shutil
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -159,3 +160,29 @@ def test_open_mesh_warning_reaches_the_report(tmp_path):
     out = export_plan(result, tmp_path / "out")
     report = (out / "report.txt").read_text()
     assert "warning: mesh 'wall'" in report and "watertight" in report
+
+
+def test_replanning_reuses_the_context_and_every_untouched_transition(bridge_result):
+    """Slowing the last transition down re-plans only that one; the others are taken over as they were."""
+    scene = bridge_result.scene
+    last = len(scene.timeline.transitions) - 1
+    slower = replace(scene.timeline.transitions[last], duration=bridge_result.transitions[last].duration + 10.0)
+    edited = replace(scene, timeline=replace(scene.timeline, transitions=(*scene.timeline.transitions[:last], slower)))
+    again = plan(edited, base_dir=SAMPLES, previous=bridge_result, workers=1)
+    assert again.verified and again.reused == tuple(range(last))
+    assert again.context.field is bridge_result.context.field  # the field was not rebuilt
+    assert again.transitions[last].duration == slower.duration
+    for k in range(last):
+        assert again.transitions[k] is bridge_result.transitions[k]
+
+
+def test_a_dask_cluster_gives_the_same_plan_as_the_inline_executor(bridge_result):
+    """The bridge's three roadmap transitions run as tasks on an in-process Dask cluster."""
+    distributed = pytest.importorskip("dask.distributed")
+    with distributed.Client(processes=False, dashboard_address=None, n_workers=2, threads_per_worker=1) as client:
+        on_cluster = plan(bridge_result.scene, base_dir=SAMPLES, executor=client.get_executor())
+    inline = plan(bridge_result.scene, base_dir=SAMPLES, executor=InlineExecutor())
+    assert on_cluster.verified and inline.verified
+    np.testing.assert_allclose(on_cluster.trajectory.control_points, inline.trajectory.control_points,
+                               rtol=0, atol=1e-9)
+    np.testing.assert_allclose(on_cluster.trajectory.breaks, inline.trajectory.breaks, rtol=0, atol=1e-9)

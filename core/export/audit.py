@@ -16,7 +16,7 @@ from ..bezier import bernstein_basis
 from ..reading import file_sha256
 from .documents import STAMP_FIELDS, ExportStatus
 from .load import LoadedExport
-from .samples_csv import HEADER, sample_times
+from .samples_csv import COLUMNS, HEADER, sample_times
 from .target import MANIFEST
 from .trajectory_json import piece_points
 
@@ -92,6 +92,16 @@ def _read_stamp(path: Path, pick) -> ExportStatus | None:
         return None
 
 
+def _parquet_stamp(path: Path) -> ExportStatus | None:
+    try:
+        import pyarrow.parquet as pq
+
+        metadata = pq.read_schema(path).metadata or {}
+        return ExportStatus.model_validate(json.loads(metadata[b"skyloom"]))
+    except (ImportError, OSError, ValueError, KeyError, TypeError):
+        return None
+
+
 def _stamps(loaded: LoadedExport) -> list[ExportFinding]:
     expected = loaded.manifest.stamp()
     out = [ExportFinding(MANIFEST, None, p) for p in expected.problems()]
@@ -104,11 +114,15 @@ def _stamps(loaded: LoadedExport) -> list[ExportFinding]:
     stamps.append(("report.json", None, _read_stamp(loaded.folder / "report.json",
                                                     lambda d: {k: d[k] for k in STAMP_FIELDS})))
     stamps.append(("paths.gltf", None, _read_stamp(loaded.folder / "paths.gltf", lambda d: d["asset"]["extras"])))
+    if (loaded.folder / "samples.parquet").is_file():
+        stamps.append(("samples.parquet", None, _parquet_stamp(loaded.folder / "samples.parquet")))
     for name, drone, found in stamps:
         problem = _stamp_problem(found, expected)
         if problem:
             out.append(ExportFinding(name, drone, problem))
     for name in ("report.txt", "samples.csv"):
+        if name not in loaded.manifest.files:
+            continue
         try:
             with open(loaded.folder / name, encoding="utf-8") as f:
                 head = [f.readline().rstrip("\n") for _ in range(2)]
@@ -165,58 +179,69 @@ def _monomials(loaded: LoadedExport) -> list[ExportFinding]:
     return out
 
 
+def _sample_blocks(path: Path):
+    """``(drone ids, values (M, 10))`` blocks of a samples file, in file order (CSV or Parquet).
+    Raises ValueError with the reason when the file is malformed."""
+    if path.suffix == ".parquet":
+        import pyarrow.parquet as pq  # written only when pyarrow is installed
+
+        parquet = pq.ParquetFile(path)
+        if parquet.schema_arrow.names != COLUMNS:
+            raise ValueError(f"the columns are not {','.join(COLUMNS)}")
+        for batch in parquet.iter_batches(batch_size=SAMPLE_BLOCK_ROWS):
+            ids = batch.column(0).to_pylist()
+            yield ids, np.column_stack([batch.column(k).to_numpy(zero_copy_only=False) for k in range(1, 11)])
+        return
+    with open(path, encoding="utf-8") as f:
+        lines = (line for line in f if not line.startswith("#"))
+        if next(lines, "").rstrip("\n") != HEADER:
+            raise ValueError(f"the column header is not {HEADER}")
+        while block := list(itertools.islice(lines, SAMPLE_BLOCK_ROWS)):
+            ids, values = zip(*(line.rstrip("\n").partition(",")[::2] for line in block), strict=True)
+            data = np.loadtxt(values, delimiter=",", ndmin=2)
+            if data.shape[1] != 10:
+                raise ValueError(f"rows have {data.shape[1] + 1} columns, 11 expected")
+            yield list(ids), data
+
+
 def _samples(loaded: LoadedExport) -> list[ExportFinding]:
-    """Every row of samples.csv against the curves: the drone order, the time grid at the
+    """Every row of the samples file against the curves: the drone order, the time grid at the
     manifest's rate, and position, velocity and acceleration within the tolerance above."""
-    name, traj = "samples.csv", loaded.trajectory
+    traj = loaded.trajectory
+    name = next((f for f in loaded.manifest.files if f.startswith("samples.")), "samples.csv")
     path = loaded.folder / name
     if not path.is_file():
         return []  # reported by the digest check
     t = sample_times(traj.duration, loaded.manifest.sample_rate_hz)
     expected_rows = traj.n_drones * len(t)
-    out, bad_drones, row_no, seen = [], set(), 0, 0
+    out, bad_drones, seen = [], set(), 0
     try:
-        with open(path, encoding="utf-8") as f:
-            lines = (line for line in f if not line.startswith("#"))
-            if next(lines, "").rstrip("\n") != HEADER:
-                return [ExportFinding(name, None, f"the column header is not {HEADER}")]
-            while block := list(itertools.islice(lines, SAMPLE_BLOCK_ROWS)):
-                ids, values = [], []
-                for line in block:
-                    row_no += 1
-                    drone, _, rest = line.rstrip("\n").partition(",")
-                    ids.append(drone)
-                    values.append(rest)
-                try:
-                    data = np.loadtxt(values, delimiter=",", ndmin=2)
-                except ValueError:
-                    return out + [ExportFinding(name, None, f"rows {row_no - len(block) + 2}–{row_no + 1} hold a "
-                                                "malformed row (10 numbers after the drone id expected)")]
-                if data.shape[1] != 10:
-                    return out + [ExportFinding(name, None, f"rows have {data.shape[1] + 1} columns, 11 expected")]
-                index = np.arange(seen, seen + len(block))
-                seen += len(block)
-                if seen > expected_rows:
-                    return out + [ExportFinding(name, None, f"holds more than the {expected_rows} rows expected")]
-                drone_of, step = index // len(t), index % len(t)
-                want_ids = np.array(traj.drone_ids)[drone_of]
-                wrong_id = np.nonzero(np.array(ids) != want_ids)[0]
-                if len(wrong_id):
-                    k = wrong_id[0]
-                    return out + [ExportFinding(name, str(want_ids[k]), f"data row {index[k] + 1} names drone "
-                                                f"{ids[k][:20]!r} where {want_ids[k]!r} was expected")]
-                curves = [traj.evaluate_rows(drone_of, t[step], order) for order in (0, 1, 2)]
-                exact = np.column_stack([t[step], *curves])
-                wrong = ~(np.abs(data - exact) <= SAMPLE_ABS_TOLERANCE + SAMPLE_REL_TOLERANCE * np.abs(exact))
-                for r in np.nonzero(wrong.any(axis=1))[0]:
-                    drone = traj.drone_ids[drone_of[r]]
-                    if drone in bad_drones:
-                        continue
-                    bad_drones.add(drone)
-                    col = int(np.argmax(wrong[r]))
-                    what = "t" if col == 0 else f"{_QUANTITIES[(col - 1) // 3]} {'xyz'[(col - 1) % 3]}"
-                    out.append(ExportFinding(name, drone, f"at t = {t[step[r]]:.3f} s, {what} is {data[r, col]:.6f} "
-                                             f"but the curve gives {exact[r, col]:.6f}"))
+        for ids, data in _sample_blocks(path):
+            index = np.arange(seen, seen + len(ids))
+            seen += len(ids)
+            if seen > expected_rows:
+                return out + [ExportFinding(name, None, f"holds more than the {expected_rows} rows expected")]
+            drone_of, step = index // len(t), index % len(t)
+            want_ids = np.array(traj.drone_ids)[drone_of]
+            wrong_id = np.nonzero(np.array(ids, dtype=object) != want_ids)[0]
+            if len(wrong_id):
+                k = wrong_id[0]
+                return out + [ExportFinding(name, str(want_ids[k]), f"data row {index[k] + 1} names drone "
+                                            f"{str(ids[k])[:20]!r} where {want_ids[k]!r} was expected")]
+            curves = [traj.evaluate_rows(drone_of, t[step], order) for order in (0, 1, 2)]
+            exact = np.column_stack([t[step], *curves])
+            wrong = ~(np.abs(data - exact) <= SAMPLE_ABS_TOLERANCE + SAMPLE_REL_TOLERANCE * np.abs(exact))
+            for r in np.nonzero(wrong.any(axis=1))[0]:
+                drone = traj.drone_ids[drone_of[r]]
+                if drone in bad_drones:
+                    continue
+                bad_drones.add(drone)
+                col = int(np.argmax(wrong[r]))
+                what = "t" if col == 0 else f"{_QUANTITIES[(col - 1) // 3]} {'xyz'[(col - 1) % 3]}"
+                out.append(ExportFinding(name, drone, f"at t = {t[step[r]]:.3f} s, {what} is {data[r, col]:.6f} "
+                                         f"but the curve gives {exact[r, col]:.6f}"))
+    except ValueError as exc:
+        return out + [ExportFinding(name, None, f"malformed after {seen} rows: {exc}")]
     except (OSError, UnicodeDecodeError) as exc:
         return out + [ExportFinding(name, None, f"cannot be read ({exc})")]
     if seen < expected_rows:

@@ -18,9 +18,12 @@ from ..scene.io import EXPORT_STAMP_FIELD, dumps_compact, scene_to_dict
 from .documents import EXPORT_FORMAT, ExportStatus, Manifest
 from .gltf import paths_gltf
 from .plan_records import roadmap_record, transition_record
-from .samples_csv import check_sample_rate, write_samples_csv
+from .samples_csv import check_sample_rate, write_samples_csv, write_samples_parquet
 from .target import MANIFEST, export_folder
 from .trajectory_json import trajectory_document
+
+#: The sampled-states file of each ``samples`` format.
+SAMPLE_FILES = {"csv": "samples.csv", "parquet": "samples.parquet"}
 
 
 def trajectory_file(drone_id: str) -> str:
@@ -31,14 +34,15 @@ def trajectory_file(drone_id: str) -> str:
 
 def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, allow_unverified: bool = False,
                 gltf_samples_per_piece: int = 32, protect: Sequence[Path] = (),
-                warn: Callable[[str], None] = lambda message: None) -> Path:
+                warn: Callable[[str], None] = lambda message: None, samples: str = "csv") -> Path:
     """Write ``result`` (a :class:`core.pipeline.PlanResult`) into ``out_dir``; return its path.
 
     Refuses a plan that failed verification unless ``allow_unverified`` (then every file says so),
     and a target that is not new, empty or an earlier Skyloom export (see
     :mod:`core.export.target`). ``protect`` lists input files (the scene file) that the target
     must not contain; the scene's CSV and mesh files are always protected. ``warn`` receives
-    notes about folders kept aside. Raises :class:`ExportError` saying what and where.
+    notes about folders kept aside. ``samples`` is ``"csv"`` (samples.csv) or ``"parquet"``
+    (samples.parquet, columnar, for large fleets). Raises :class:`ExportError` saying what and where.
     """
     report = result.report
     if not report.ok and not allow_unverified:
@@ -54,7 +58,9 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
     stamp = status.model_dump()
     mesh_files = [f"meshes/{k}_{re.sub(r'[^A-Za-z0-9._-]', '_', Path(m.file).name)}"
                   for k, m in enumerate(scene.site.meshes)]
-    files = ["scene.json", "report.json", "report.txt", "samples.csv", "paths.gltf", *mesh_files, *names]
+    if samples not in SAMPLE_FILES:
+        raise ExportError(f"--samples {samples}: expected one of {', '.join(SAMPLE_FILES)}")
+    files = ["scene.json", "report.json", "report.txt", SAMPLE_FILES[samples], "paths.gltf", *mesh_files, *names]
     monomials = traj.monomial_coefficients()  # (N, S, n + 1, 3), converted once for the whole fleet
     try:
         with export_folder(out_dir, inputs) as (stage, kept):
@@ -73,8 +79,11 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
             plan_lines = "\n".join(plan_summary_lines(result))
             (stage / "report.txt").write_text(f"{status.header}\n\nPlan\n{plan_lines}\n\n{report.to_text()}",
                                               encoding="utf-8")
-            with open(stage / "samples.csv", "w", encoding="utf-8", newline="") as out:
-                write_samples_csv(out, traj, sample_rate_hz, status.header)
+            if samples == "parquet":
+                write_samples_parquet(stage / SAMPLE_FILES[samples], traj, sample_rate_hz, stamp)
+            else:
+                with open(stage / SAMPLE_FILES[samples], "w", encoding="utf-8", newline="") as out:
+                    write_samples_csv(out, traj, sample_rate_hz, status.header)
             (stage / "paths.gltf").write_text(paths_gltf(traj, gltf_samples_per_piece, stamp), encoding="utf-8")
             manifest = Manifest(
                 **stamp, scene=scene.name, duration_s=traj.duration, degree=traj.degree,

@@ -8,6 +8,7 @@ cluster workers that plan transitions in parallel. Its heavy parts are built on 
 
 from __future__ import annotations
 
+import copy
 import time
 from dataclasses import dataclass
 from functools import cached_property
@@ -70,9 +71,12 @@ class PlanningContext:
                 and Path(base_dir) == self.base_dir and use_cache == self.use_cache)
 
     def for_scene(self, scene: Scene, source: str) -> PlanningContext:
-        """This context for an edited ``scene`` of the same site and fleet (formations may differ)."""
-        self.scene, self.source = scene, source
-        return self
+        """A copy of this context for an edited ``scene`` of the same site and fleet (formations may
+        differ); it shares the meshes, the field and the roadmaps built so far."""
+        other = copy.copy(self)
+        other.scene, other.source = scene, source
+        other.warnings, other.seconds = list(self.warnings), {}
+        return other
 
     @property
     def has_obstacles(self) -> bool:

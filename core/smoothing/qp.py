@@ -60,6 +60,9 @@ class DroneProblem:
     weights: dict[str, float]
     initial: np.ndarray | None = None
     cost_reference: float | None = None
+    #: ``(transition token, drone)``: the parts of the QP that stay the same within a transition are
+    #: built once per worker process under this key (None: always built afresh).
+    fixed_key: tuple[str, int] | None = None
 
     def volume_bounds(self) -> tuple[np.ndarray, np.ndarray]:
         """Lower and upper corner ``(3,)`` m for control points: the flight volume shrunk by
@@ -99,13 +102,63 @@ class QPMatrices:
     cost_scale: float
 
 
+@dataclass(frozen=True, eq=False)
+class FixedRows:
+    """What a drone's QP keeps through every round of a transition: the unscaled cost ``P`` and
+    the rows before the corridors (rest, continuity) and after them (flight volume, limits)."""
+
+    P: sp.csc_matrix
+    head: _CollectedRows
+    tail: _CollectedRows
+
+
+def fixed_rows(problem: DroneProblem) -> FixedRows:
+    """The round-independent parts of ``problem``'s QP (they depend on its durations, ends,
+    volume, limits and objective, never on its corridors or warm start)."""
+    n, h = problem.degree, np.asarray(problem.durations, dtype=float)
+    blocks = [sp.kron(piece_cost_matrix(n, float(hk), problem.weights), sp.eye(3)) for hk in h]
+    head = _RowBuilder(n, len(h))
+    _rest_rows(head, problem)
+    _join_rows(head, n, h)
+    tail = _RowBuilder(n, len(h))
+    pieces_all, cps_all = np.divmod(np.arange(len(h) * (n + 1)), n + 1)
+    low, high = problem.volume_bounds()
+    for d in range(3):
+        tail.add(pieces_all, cps_all, np.ones((len(cps_all), 1)), np.tile(_AXES[d], (len(cps_all), 1)),
+                 low[d], high[d], "flight volume")
+    vh, vv, acc = problem.limits
+    _limit_rows(tail, h, n, [-1.0, 1.0], HORIZONTAL_DIRECTIONS, vh * inscribed_scale(HORIZONTAL_DIRECTIONS) / n,
+                1, "horizontal speed")
+    _limit_rows(tail, h, n, [-1.0, 1.0], _VERTICAL, vv / n, 1, "vertical speed")
+    if n >= 2:
+        _limit_rows(tail, h, n, [1.0, -2.0, 1.0], ACCELERATION_DIRECTIONS,
+                    acc * inscribed_scale(ACCELERATION_DIRECTIONS) / (n * (n - 1)), 2, "acceleration")
+    return FixedRows(sp.block_diag(blocks, format="csc"), head.collected(), tail.collected())
+
+
+#: This process's fixed rows of the transition it is smoothing, per drone (see :func:`_fixed_rows_for`).
+_FIXED_CACHE: dict[tuple[str, int], FixedRows] = {}
+
+
+def _fixed_rows_for(problem: DroneProblem) -> FixedRows:
+    """:func:`fixed_rows`, built once per ``fixed_key`` in this process; the cache holds only the
+    latest transition (a process smooths one transition at a time)."""
+    if problem.fixed_key is None:
+        return fixed_rows(problem)
+    if problem.fixed_key not in _FIXED_CACHE:
+        if any(key[0] != problem.fixed_key[0] for key in _FIXED_CACHE):
+            _FIXED_CACHE.clear()
+        _FIXED_CACHE[problem.fixed_key] = fixed_rows(problem)
+    return _FIXED_CACHE[problem.fixed_key]
+
+
 def build_matrices(problem: DroneProblem) -> QPMatrices:
     """The sparse QP of ``problem``; rows are scaled to unit ∞-norm, the cost to 1 at the warm start."""
     n, h = problem.degree, np.asarray(problem.durations, dtype=float)
     k_count = len(h)
     n_vars = k_count * (n + 1) * 3
-    blocks = [sp.kron(piece_cost_matrix(n, float(hk), problem.weights), sp.eye(3)) for hk in h]
-    P = sp.block_diag(blocks, format="csc")
+    fixed = _fixed_rows_for(problem)
+    P = fixed.P
     # Cost scaled to 1 at a reference point (the smoother passes the stop-at-every-waypoint cost in
     # every round): OSQP's dual residual test is relative, and at this scale it stopped within ~2 %
     # of the optimum, against up to ~50 % with P scaled to unit peak (bench_smoothing.py).
@@ -114,25 +167,13 @@ def build_matrices(problem: DroneProblem) -> QPMatrices:
         reference = float(problem.initial.ravel() @ (P @ problem.initial.ravel()))
     cost_scale = reference if reference else (float(abs(P).max()) or 1.0)
     rows = _RowBuilder(n, k_count)
-    _rest_rows(rows, problem)
-    _join_rows(rows, n, h)
+    rows.extend(fixed.head)
     if len(problem.pieces):
         rows.add(np.repeat(problem.pieces, n + 1), np.tile(np.arange(n + 1), len(problem.pieces)),
                  np.ones((len(problem.pieces) * (n + 1), 1)), np.repeat(problem.normals, n + 1, axis=0),
                  -np.inf, np.repeat(problem.offsets, n + 1),
                  [f"corridor ({'obstacles' if p < 0 else f'drone #{p}'})" for p in np.repeat(problem.partners, n + 1)])
-    pieces_all, cps_all = np.divmod(np.arange(k_count * (n + 1)), n + 1)
-    low, high = problem.volume_bounds()
-    for d in range(3):
-        rows.add(pieces_all, cps_all, np.ones((len(cps_all), 1)), np.tile(_AXES[d], (len(cps_all), 1)),
-                 low[d], high[d], "flight volume")
-    vh, vv, acc = problem.limits
-    _limit_rows(rows, h, n, [-1.0, 1.0], HORIZONTAL_DIRECTIONS, vh * inscribed_scale(HORIZONTAL_DIRECTIONS) / n,
-                1, "horizontal speed")
-    _limit_rows(rows, h, n, [-1.0, 1.0], _VERTICAL, vv / n, 1, "vertical speed")
-    if n >= 2:
-        _limit_rows(rows, h, n, [1.0, -2.0, 1.0], ACCELERATION_DIRECTIONS,
-                    acc * inscribed_scale(ACCELERATION_DIRECTIONS) / (n * (n - 1)), 2, "acceleration")
+    rows.extend(fixed.tail)
     A, lower, upper, piece, family = rows.finish(n_vars)
     return QPMatrices(P / cost_scale, A, lower, upper, piece, family, cost_scale)
 
@@ -181,6 +222,20 @@ def _project_onto_equalities(m: QPMatrices, x: np.ndarray) -> np.ndarray:
     return x - a_eq.T @ correction
 
 
+@dataclass(frozen=True, eq=False)
+class _CollectedRows:
+    """Rows gathered by a :class:`_RowBuilder`, ids from 0, in COO form (see :meth:`_RowBuilder.extend`)."""
+
+    rows: np.ndarray
+    cols: np.ndarray
+    vals: np.ndarray
+    lower: np.ndarray
+    upper: np.ndarray
+    piece: np.ndarray
+    family: list[str]
+    count: int
+
+
 class _RowBuilder:
     """Collects constraint rows ``l ≤ Σ_t w_t (dir · b_{piece, first + t}) ≤ u`` in COO form."""
 
@@ -212,6 +267,23 @@ class _RowBuilder:
         self.vals.append((weights[:, :, None] * directions[:, None, :]).ravel())
         return row_ids
 
+    def collected(self) -> _CollectedRows:
+        """The rows added so far, as arrays."""
+        return _CollectedRows(_joined(self.rows, int), _joined(self.cols, int), _joined(self.vals),
+                              _joined(self.lower), _joined(self.upper), _joined(self.piece, int), list(self.family),
+                              self.count)
+
+    def extend(self, done: _CollectedRows) -> None:
+        """Append rows collected by another builder (their ids follow the rows already here)."""
+        self.rows.append(done.rows + self.count)
+        self.cols.append(done.cols)
+        self.vals.append(done.vals)
+        self.lower.append(done.lower)
+        self.upper.append(done.upper)
+        self.piece.append(done.piece)
+        self.family += done.family
+        self.count += done.count
+
     def finish(self, n_vars: int):
         A = sp.coo_matrix((np.concatenate(self.vals), (np.concatenate(self.rows), np.concatenate(self.cols))),
                           shape=(self.count, n_vars)).tocsr()
@@ -221,6 +293,10 @@ class _RowBuilder:
         scale = sp.diags(1.0 / norm)
         lower, upper = np.concatenate(self.lower) / norm, np.concatenate(self.upper) / norm
         return (scale @ A).tocsc(), lower, upper, np.concatenate(self.piece), self.family
+
+
+def _joined(parts: list[np.ndarray], dtype=float) -> np.ndarray:
+    return np.concatenate(parts) if parts else np.zeros(0, dtype)
 
 
 def _rest_rows(rows: _RowBuilder, problem: DroneProblem) -> None:

@@ -9,6 +9,7 @@ Only verified iterates are kept; a failure names the drone and step and keeps th
 from __future__ import annotations
 
 import re
+import secrets
 import time
 from concurrent.futures import Executor
 from dataclasses import dataclass, field
@@ -107,6 +108,7 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     planes = initial_planes(starts, ends, clearance, envelope)
     seconds["corridors"] += time.perf_counter() - t0
     previous = stop_at_vertices_points(starts, ends, options.degree)
+    token = secrets.token_hex(8)  # names this transition's fixed QP parts in every worker process
     references = curve_costs(previous, qp_durations, options.weights)
     best_objective = np.inf
     for it in range(options.iterations):
@@ -114,7 +116,7 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
         progress("smoothing", it / options.iterations, f"{where}: iteration {it + 1} of {options.iterations}")
         t0 = time.perf_counter()
         problems = [_problem(i, positions, qp_durations, tubes, planes, spec, limits, options, previous[i],
-                             float(references[i])) for i in range(len(positions))]
+                             float(references[i]), token) for i in range(len(positions))]
         solutions: list[DroneSolution] = list(executor.map(solve_drone, problems))
         seconds["qp"] += time.perf_counter() - t0
         failed = [s for s in solutions if not s.ok]
@@ -148,10 +150,11 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
 
 def _problem(i: int, positions: np.ndarray, durations: np.ndarray, tubes: Tubes, planes: PairPlanes,
              spec: VerificationSpec, limits: np.ndarray, options: SmoothingOptions, initial: np.ndarray,
-             reference: float) -> DroneProblem:
+             reference: float, token: str | None) -> DroneProblem:
     normals, offsets, steps, partners = drone_rows(i, tubes, planes)
     return DroneProblem(i, options.degree, durations, positions[i, 0], positions[i, -1], normals, offsets, steps,
-                        partners, spec.flight_volume, limits[i], options.weights, initial, reference or None)
+                        partners, spec.flight_volume, limits[i], options.weights, initial, reference or None,
+                        None if token is None else (token, i))
 
 
 def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> float:
