@@ -59,7 +59,7 @@ class FleetTrajectory:
     def degree(self) -> int:
         return self.control_points.shape[2] - 1
 
-    @property
+    @cached_property
     def durations(self) -> np.ndarray:
         """Piece durations ``(S,)`` in seconds."""
         return np.diff(self.breaks)

@@ -11,6 +11,8 @@ from collections.abc import Callable, Sequence
 from dataclasses import asdict
 from pathlib import Path
 
+from pydantic_core import to_json
+
 from ..errors import ExportError
 from ..plan_summary import plan_summary_lines
 from ..reading import file_sha256
@@ -67,7 +69,7 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
             (stage / "trajectories").mkdir()
             for k, name in enumerate(names):
                 doc = trajectory_document(traj, k, monomials[k], scene.fleet.drones[k].type, status)
-                (stage / name).write_text(doc.model_dump_json(), encoding="utf-8")
+                (stage / name).write_bytes(to_json(doc))  # pydantic-core's serializer: ~10× json.dumps
             scene_doc = {EXPORT_STAMP_FIELD: stamp, **scene_to_dict(scene, inline_csv=True)}
             if mesh_files:
                 (stage / "meshes").mkdir()  # copies let the folder be re-verified on its own

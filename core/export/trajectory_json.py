@@ -5,25 +5,25 @@ from __future__ import annotations
 import numpy as np
 
 from ..trajectory import FleetTrajectory
-from .documents import Axes, ExportStatus, PieceDoc, TrajectoryDoc
+from .documents import ExportStatus, TrajectoryDoc
 
 _AXES = ("x", "y", "z")
 
 
-def _axes(values: np.ndarray) -> Axes:
-    """``values`` ``(n + 1, 3)`` as per-axis lists."""
-    return Axes(**{a: values[:, i].tolist() for i, a in enumerate(_AXES)})
-
-
 def trajectory_document(traj: FleetTrajectory, k: int, monomials: np.ndarray, drone_type: str,
-                        status: ExportStatus) -> TrajectoryDoc:
-    """The file content for drone ``k``: Bézier control points and power-basis coefficients
-    ``monomials`` ``(S, n + 1, 3)`` of that drone (:meth:`FleetTrajectory.monomial_coefficients`)."""
-    pieces = [PieceDoc(start=float(traj.breaks[s]), duration=float(traj.durations[s]), label=traj.segment_labels[s],
-                       bezier=_axes(traj.control_points[k, s]), monomial=_axes(monomials[s]))
+                        status: ExportStatus) -> dict:
+    """The file content (a :class:`TrajectoryDoc` as plain JSON data, built directly: a large
+    export writes tens of thousands of pieces) for drone ``k``: Bézier control points and
+    power-basis coefficients ``monomials`` ``(S, n + 1, 3)`` of that drone
+    (:meth:`FleetTrajectory.monomial_coefficients`)."""
+    starts, durations = traj.breaks[:-1].tolist(), traj.durations.tolist()
+    bezier, mono = traj.control_points[k].transpose(0, 2, 1).tolist(), monomials.transpose(0, 2, 1).tolist()
+    pieces = [{"start": starts[s], "duration": durations[s], "label": traj.segment_labels[s],
+               "bezier": dict(zip(_AXES, bezier[s], strict=True)), "monomial": dict(zip(_AXES, mono[s], strict=True))}
               for s in range(traj.n_segments)]
-    return TrajectoryDoc(**status.model_dump(), drone=traj.drone_ids[k], drone_type=drone_type,
-                         units={"time": "s", "position": "m"}, degree=traj.degree, pieces=pieces)
+    return {**status.model_dump(), "format": TrajectoryDoc.model_fields["format"].default, "version": 1,
+            "drone": traj.drone_ids[k], "drone_type": drone_type, "units": {"time": "s", "position": "m"},
+            "degree": traj.degree, "pieces": pieces}
 
 
 def piece_points(doc: TrajectoryDoc, basis: str) -> list[np.ndarray]:
