@@ -5,6 +5,7 @@ import shutil
 
 import numpy as np
 import pytest
+import trimesh
 
 from conftest import ROOT, scene_dict
 from core.errors import SceneError
@@ -137,4 +138,8 @@ def test_missing_mesh_file_is_named(tmp_path):
     assert where == "s.json: site.meshes[0].file" and "not found" in why
     (tmp_path / "meshes").mkdir()
     (tmp_path / "meshes" / "bridge.stl").write_text("solid x\nendsolid x\n")
+    [(where, why)] = _problems(data, base_dir=tmp_path)  # read at load: an empty mesh is named there
+    assert where == "s.json: site.meshes[0].file" and "contains no triangles" in why
+    far = trimesh.transformations.translation_matrix([2000.0, 2000.0, 2000.0])  # cm: 20 m from every point
+    trimesh.creation.box((10.0, 10.0, 10.0), transform=far).export(tmp_path / "meshes" / "bridge.stl")
     assert scene_from_dict(data, source="s.json", base_dir=tmp_path).site.meshes[0].units == "cm"
