@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import importlib.util
 import math
 import sys
 from contextlib import nullcontext
@@ -11,7 +12,7 @@ from pathlib import Path
 
 from . import SAFETY_CAUTION, __version__, lifecycle
 from .crash_log import write_crash_log
-from .errors import Cancelled, SkyloomError
+from .errors import Cancelled, ExportError, SkyloomError
 from .export import audit_export, export_plan, inspect_target, load_export
 from .limits import MAX_SAMPLE_RATE_HZ, MAX_WORKERS
 from .progress import no_progress
@@ -155,6 +156,8 @@ def _plan(args) -> int:
 
     scene = load_scene(args.scene)
     inspect_target(args.out.absolute(), [args.scene])  # refuse a target before minutes of planning
+    if args.samples == "parquet" and importlib.util.find_spec("pyarrow") is None:
+        raise ExportError("--samples parquet needs pyarrow: pip install 'skyloom[columnar]'")
     progress = _progress(args)
     settings = with_settings(scene, degree=args.degree, profile=args.profile, suboptimality=args.suboptimality,
                              roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
@@ -199,7 +202,7 @@ def _check(args) -> int:
         for f in findings:
             print("  " + f.describe())
     else:
-        print("Export files: every trajectory's monomials and every samples.csv row match the verified curves; "
+        print("Export files: every trajectory's monomials and every sampled row match the verified curves; "
               "every file matches its digest and carries the same status and caution.")
     if loaded.manifest.verified and not report.ok:
         print("warning: the export claims it was verified, but this check fails", file=sys.stderr)
