@@ -31,6 +31,7 @@ class ExportDialog(QDialog):
     def __init__(self, result: PlanResult, default_folder: Path, protect: list[Path], parent=None):
         super().__init__(parent)
         self.setWindowTitle("Export plan")
+        self.setMinimumWidth(620)  # room for a whole folder path
         self.result, self.protect = result, protect
         status = ("Verification PASSED: Skyloom's independent checker proved the clearances and limits over "
                   "continuous time." if result.verified else
@@ -55,6 +56,10 @@ class ExportDialog(QDialog):
         row.addWidget(browse)
         form = QFormLayout()
         form.addRow("folder", row)
+        rule = QLabel("A new or empty folder, or an earlier Skyloom export; a folder holding other files is "
+                      "refused and left as it is.")
+        rule.setWordWrap(True)
+        form.addRow("", rule)
         form.addRow("samples.csv rate", self.rate)
         layout = QVBoxLayout(self)
         for w in (self.status, self.caution):

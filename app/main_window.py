@@ -197,7 +197,7 @@ class MainWindow(QMainWindow):
             return
         stem = self.document.path.stem if self.document.path else self.document.scene.name
         protect = [self.document.path] if self.document.path else []
-        dialog = ExportDialog(self.document.plan, fresh_folder(self.document.base_dir, stem), protect, self)
+        dialog = ExportDialog(self.document.plan, fresh_folder(self.document.base_dir.resolve(), stem), protect, self)
         if dialog.exec():
             try:
                 folder, notes = dialog.write()
