@@ -52,12 +52,18 @@ def _worker_start(parent_pid: int) -> None:
 def _end_workers(pool: ProcessPoolExecutor) -> None:
     """Kill ``pool``'s processes now (their work is abandoned) and stop the pool without waiting."""
     processes = list((getattr(pool, "_processes", None) or {}).values())  # no public API before Python 3.14
+    manager = getattr(pool, "_executor_manager_thread", None)  # shutdown() forgets it: take it first
     for process in processes:
         if process.is_alive():
             process.kill()
     pool.shutdown(wait=False, cancel_futures=True)
     for process in processes:
         process.join(timeout=1.0)
+    # The pool's manager thread closes its wake-up pipe as it ends; Python 3.11's exit hook writes
+    # to that pipe, and when both happen at once it prints "Bad file descriptor" with a traceback.
+    # Waiting here for the thread (it ends within milliseconds once its workers are dead) rules it out.
+    if manager is not None and manager is not threading.current_thread():
+        manager.join(timeout=1.0)
 
 
 @contextmanager
