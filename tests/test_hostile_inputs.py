@@ -188,6 +188,8 @@ SCENE_CASES = [
     SceneCase("workers zero", lambda d, s: None, 2, "argument --workers", ("--workers", "0")),
     SceneCase("workers negative", lambda d, s: None, 2, "argument --workers", ("--workers", "-1")),
     SceneCase("time limit NaN", lambda d, s: None, 2, "argument --time-limit", ("--time-limit", "nan")),
+    SceneCase("infinite objective weight", lambda d, s: None, 2, "weights must be finite", ("--objective", "snap=inf")),
+    SceneCase("NaN objective weight", _set("planner.objective", "jerk=nan"), 2, "weights must be finite"),
     SceneCase("unchanged lab sample", lambda d, s: None, 0, "Verification PASSED"),
 ]
 
