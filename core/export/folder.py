@@ -4,10 +4,12 @@ may be replaced at all is decided in :mod:`core.export.target`."""
 
 from __future__ import annotations
 
+import hashlib
 import json
 import re
 import shutil
 from collections.abc import Callable, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import asdict
 from pathlib import Path
 
@@ -66,34 +68,51 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
     monomials = traj.monomial_coefficients()  # (N, S, n + 1, 3), converted once for the whole fleet
     try:
         with export_folder(out_dir, inputs) as (stage, kept):
-            (stage / "trajectories").mkdir()
-            for k, name in enumerate(names):  # pydantic-core serialises ~10× faster than json.dumps
-                doc = trajectory_document(traj, k, monomials[k], scene.fleet.drones[k].type, status)
-                (stage / name).write_bytes(to_json(doc))
-            scene_doc = {EXPORT_STAMP_FIELD: stamp, **scene_to_dict(scene, inline_csv=True)}
-            if mesh_files:
-                (stage / "meshes").mkdir()  # copies let the folder be re-verified on its own
-            for k, (mesh, copied) in enumerate(zip(scene.site.meshes, mesh_files, strict=True)):
-                shutil.copyfile(base / mesh.file, stage / copied)
-                scene_doc["site"]["meshes"][k]["file"] = copied
-            (stage / "scene.json").write_text(dumps_compact(scene_doc), encoding="utf-8")
-            (stage / "report.json").write_text(json.dumps({**stamp, **report.to_dict()}, indent=1), encoding="utf-8")
-            plan_lines = "\n".join(plan_summary_lines(result))
-            (stage / "report.txt").write_text(f"{status.header}\n\nPlan\n{plan_lines}\n\n{report.to_text()}",
-                                              encoding="utf-8")
-            if samples == "parquet":
-                write_samples_parquet(stage / SAMPLE_FILES[samples], traj, sample_rate_hz, stamp)
-            else:
-                with open(stage / SAMPLE_FILES[samples], "w", encoding="utf-8", newline="") as out:
-                    write_samples_csv(out, traj, sample_rate_hz, status.header)
-            (stage / "paths.gltf").write_text(paths_gltf(traj, gltf_samples_per_piece, stamp), encoding="utf-8")
+            sample_path = stage / SAMPLE_FILES[samples]
+            digests: dict[str, str] = {}  # of the bytes as written, so no file is read back
+
+            def write(name: str, data: bytes) -> None:
+                (stage / name).write_bytes(data)
+                digests[name] = hashlib.sha256(data).hexdigest()
+
+            def write_samples() -> None:
+                if samples == "parquet":
+                    write_samples_parquet(sample_path, traj, sample_rate_hz, stamp)
+                else:
+                    with open(sample_path, "w", encoding="utf-8", newline="") as out:
+                        write_samples_csv(out, traj, sample_rate_hz, status.header)
+                digests[sample_path.name] = file_sha256(sample_path)  # streamed: hashed here, in this thread
+
+            def write_gltf() -> None:
+                write("paths.gltf", paths_gltf(traj, gltf_samples_per_piece, stamp).encode("utf-8"))
+
+            # The samples and the glTF are mostly numpy work and file writes, which release the GIL:
+            # they run beside the trajectory files (measured: bench/bench_planning.py).
+            with ThreadPoolExecutor(2) as writers:
+                side = [writers.submit(write_samples), writers.submit(write_gltf)]
+                (stage / "trajectories").mkdir()
+                for k, name in enumerate(names):  # pydantic-core serialises ~10× faster than json.dumps
+                    write(name, to_json(trajectory_document(traj, k, monomials[k], scene.fleet.drones[k].type, status)))
+                scene_doc = {EXPORT_STAMP_FIELD: stamp, **scene_to_dict(scene, inline_csv=True)}
+                if mesh_files:
+                    (stage / "meshes").mkdir()  # copies let the folder be re-verified on its own
+                for k, (mesh, copied) in enumerate(zip(scene.site.meshes, mesh_files, strict=True)):
+                    shutil.copyfile(base / mesh.file, stage / copied)
+                    digests[copied] = file_sha256(stage / copied)
+                    scene_doc["site"]["meshes"][k]["file"] = copied
+                write("scene.json", dumps_compact(scene_doc).encode("utf-8"))
+                write("report.json", json.dumps({**stamp, **report.to_dict()}, indent=1).encode("utf-8"))
+                plan_lines = "\n".join(plan_summary_lines(result))
+                write("report.txt", f"{status.header}\n\nPlan\n{plan_lines}\n\n{report.to_text()}".encode())
+                for future in side:
+                    future.result()
             manifest = Manifest(
                 **stamp, scene=scene.name, duration_s=traj.duration, degree=traj.degree,
                 sample_rate_hz=float(sample_rate_hz), breaks_s=traj.breaks.tolist(), pieces=list(traj.segment_labels),
                 drones=[{"id": d, "file": n} for d, n in zip(traj.drone_ids, names, strict=True)],
                 transitions=[transition_record(t) for t in result.transitions], settings=asdict(result.settings),
                 roadmap=roadmap_record(result.roadmap),
-                files=[MANIFEST, *files], digests={f: file_sha256(stage / f) for f in files},
+                files=[MANIFEST, *files], digests={f: digests[f] for f in files},
             )
             (stage / MANIFEST).write_text(json.dumps(manifest.model_dump(), indent=1), encoding="utf-8")
     except OSError as exc:
