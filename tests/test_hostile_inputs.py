@@ -9,6 +9,7 @@ reference applies.
 from __future__ import annotations
 
 import json
+import os
 import shutil
 import tempfile
 from collections.abc import Callable
@@ -438,6 +439,8 @@ CHECK_CASES = [
         1,
         "paths.gltf: changed since it was exported",
     ),
+    ("report.json replaced by a named pipe", "report.json", lambda p: (p.unlink(), os.mkfifo(p)), 1,
+     "report.json: is missing"),
     (
         "scene.json stamp removed",
         "scene.json",

@@ -86,6 +86,8 @@ def _stamp_problem(found: ExportStatus | None, expected: ExportStatus) -> str | 
 
 
 def _read_stamp(path: Path, pick) -> ExportStatus | None:
+    if not path.is_file():  # missing or not a regular file: reported by the digest check
+        return None
     try:
         return ExportStatus.model_validate(pick(json.loads(path.read_text(encoding="utf-8"))))
     except (OSError, ValueError, TypeError, KeyError):
@@ -109,8 +111,7 @@ def _stamps(loaded: LoadedExport) -> list[ExportFinding]:
         out.append(ExportFinding(MANIFEST, None, "the export is marked UNVERIFIED: it failed verification when it "
                                  "was written; do not fly it"))
     stamps: list[tuple[str, str | None, ExportStatus | None]] = [("scene.json", None, loaded.scene_stamp)]
-    stamps += [(e.file, e.id, ExportStatus(**d.model_dump(include=set(STAMP_FIELDS))))
-               for e, d in zip(loaded.manifest.drones, loaded.documents, strict=True)]
+    stamps += [(e.file, e.id, d.stamp()) for e, d in zip(loaded.manifest.drones, loaded.documents, strict=True)]
     stamps.append(("report.json", None, _read_stamp(loaded.folder / "report.json",
                                                     lambda d: {k: d[k] for k in STAMP_FIELDS})))
     stamps.append(("paths.gltf", None, _read_stamp(loaded.folder / "paths.gltf", lambda d: d["asset"]["extras"])))
@@ -121,7 +122,7 @@ def _stamps(loaded: LoadedExport) -> list[ExportFinding]:
         if problem:
             out.append(ExportFinding(name, drone, problem))
     for name in ("report.txt", "samples.csv"):
-        if name not in loaded.manifest.files:
+        if name not in loaded.manifest.files or not (loaded.folder / name).is_file():
             continue
         try:
             with open(loaded.folder / name, encoding="utf-8") as f:

@@ -50,6 +50,10 @@ class ExportStatus(_Doc):
         return cls(verified=verified, status=VERIFIED_NOTE if verified else UNVERIFIED_NOTE,
                    caution=SAFETY_CAUTION, generator=f"Skyloom {__version__}")
 
+    def stamp(self) -> ExportStatus:
+        """Just the stamp fields of this document (a manifest, a trajectory file)."""
+        return ExportStatus(**self.model_dump(include=set(STAMP_FIELDS)))
+
     @property
     def header(self) -> str:
         """Two lines (status, caution) that open the text files."""
@@ -114,7 +118,3 @@ class Manifest(ExportStatus):
     roadmap: dict
     files: list[RelativePath]
     digests: dict[RelativePath, str]
-
-    def stamp(self) -> ExportStatus:
-        return ExportStatus(verified=self.verified, status=self.status, caution=self.caution,
-                            generator=self.generator)

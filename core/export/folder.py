@@ -19,7 +19,7 @@ from ..errors import ExportError
 from ..plan_summary import plan_summary_lines
 from ..reading import file_sha256
 from ..scene.io import EXPORT_STAMP_FIELD, dumps_compact, scene_to_dict
-from .documents import EXPORT_FORMAT, ExportStatus, Manifest
+from .documents import ExportStatus, Manifest
 from .gltf import paths_gltf
 from .plan_records import roadmap_record, transition_record
 from .samples_csv import check_sample_rate, write_samples_csv, write_samples_parquet
@@ -30,10 +30,15 @@ from .trajectory_json import trajectory_document
 SAMPLE_FILES = {"csv": "samples.csv", "parquet": "samples.parquet"}
 
 
+def _file_name(text: str) -> str:
+    """``text`` with every character outside letters, digits, ``.``, ``_`` and ``-`` replaced by ``_``."""
+    return re.sub(r"[^A-Za-z0-9._-]", "_", text)
+
+
 def trajectory_file(drone_id: str) -> str:
     """Relative path of a drone's trajectory file (ids are checked safe at load; this keeps any
     other character out of file names all the same)."""
-    return "trajectories/" + re.sub(r"[^A-Za-z0-9._-]", "_", drone_id) + ".json"
+    return f"trajectories/{_file_name(drone_id)}.json"
 
 
 def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, allow_unverified: bool = False,
@@ -60,8 +65,7 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
     inputs = [*protect, *(base / f.csv for f in scene.formations if f.csv), *(base / m.file for m in scene.site.meshes)]
     status = ExportStatus.of(report.ok)
     stamp = status.model_dump()
-    mesh_files = [f"meshes/{k}_{re.sub(r'[^A-Za-z0-9._-]', '_', Path(m.file).name)}"
-                  for k, m in enumerate(scene.site.meshes)]
+    mesh_files = [f"meshes/{k}_{_file_name(Path(m.file).name)}" for k, m in enumerate(scene.site.meshes)]
     if samples not in SAMPLE_FILES:
         raise ExportError(f"--samples {samples}: expected one of {', '.join(SAMPLE_FILES)}")
     files = ["scene.json", "report.json", "report.txt", SAMPLE_FILES[samples], "paths.gltf", *mesh_files, *names]
@@ -124,4 +128,4 @@ def export_plan(result, out_dir: str | Path, *, sample_rate_hz: float = 10.0, al
     return Path(out_dir)
 
 
-__all__ = ["EXPORT_FORMAT", "export_plan", "trajectory_file"]
+__all__ = ["export_plan", "trajectory_file"]

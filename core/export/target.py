@@ -27,6 +27,7 @@ from pathlib import Path
 from .. import lifecycle
 from ..errors import ExportError
 from ..reading import UnreadableFile, load_json_file
+from .documents import EXPORT_FORMAT
 
 try:  # advisory locks exist on POSIX systems; elsewhere writers are not serialised
     import fcntl
@@ -34,7 +35,6 @@ except ImportError:  # pragma: no cover - not on Linux or macOS
     fcntl = None
 
 MANIFEST = "plan.json"
-EXPORT_FORMAT = "skyloom-plan"
 #: How long a second writer waits for the first one before it is refused (s).
 LOCK_WAIT_S = 60.0
 _STAGING, _RETIRED = "skyloom-staging", "skyloom-old"
@@ -158,9 +158,10 @@ def _sweep_leftovers(parent: Path, name: str) -> list[str]:
     pattern = re.compile(rf"\.{re.escape(name)}\.({_STAGING}|{_RETIRED})-[0-9a-f]+")
     warnings = []
     for entry in parent.iterdir():
-        if not pattern.fullmatch(entry.name) or entry.is_symlink() or not entry.is_dir():
+        found = pattern.fullmatch(entry.name)
+        if not found or entry.is_symlink() or not entry.is_dir():
             continue
-        if entry.name.split(".")[-1].startswith(_STAGING):
+        if found.group(1) == _STAGING:
             shutil.rmtree(entry, ignore_errors=True)  # only ever holds what an export was writing
             continue
         listed = export_manifest_files(entry) or set()

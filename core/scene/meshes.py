@@ -8,6 +8,7 @@ from __future__ import annotations
 import io
 import warnings
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -60,7 +61,7 @@ def load_site_meshes(site: Site, base_dir: Path, source: str = "scene") -> tuple
     loaded, problems = [], []
     for k, ref in enumerate(site.meshes):
         try:
-            loaded.append(_load_one(ref, Path(base_dir) / ref.file))
+            loaded.append(_load_placed(ref, Path(base_dir) / ref.file))
         except UnreadableFile as e:
             problems.append((f"{source}: site.meshes[{k}].file", f"mesh {ref.name!r} ({ref.file}): {e}"))
     if problems:
@@ -68,12 +69,23 @@ def load_site_meshes(site: Site, base_dir: Path, source: str = "scene") -> tuple
     return tuple(loaded)
 
 
-def _load_one(ref: MeshRef, path: Path) -> SiteMesh:
+def _load_placed(ref: MeshRef, path: Path) -> SiteMesh:
+    """``ref`` read from ``path`` and placed; a scene is checked when it is loaded and its meshes
+    are needed again to plan or verify it, so a file unchanged since (same size and modification
+    time) is parsed once per process. Every user only reads the shared mesh."""
     kind = path.suffix.lower().lstrip(".")
     if kind not in MESH_TYPES:
         raise UnreadableFile(f"unsupported file type {path.suffix!r}; use one of {', '.join(MESH_TYPES)}")
     if not path.is_file():
         raise UnreadableFile("file not found")
+    info = path.stat()
+    return _parsed(ref, str(path.resolve()), info.st_size, info.st_mtime_ns)
+
+
+@lru_cache(maxsize=32)
+def _parsed(ref: MeshRef, path: str, size: int, mtime_ns: int) -> SiteMesh:
+    """The mesh at ``path`` (whose size and modification time key the cache), placed by ``ref``."""
+    path, kind = Path(path), Path(path).suffix.lower().lstrip(".")
     data = read_bytes_limited(path, MAX_MESH_BYTES)
     try:
         with warnings.catch_warnings():
