@@ -3,6 +3,8 @@ window stays responsive, and the document's plan changes only when a new plan su
 
 from __future__ import annotations
 
+import gc
+
 from PySide6.QtCore import QObject, QThread, Signal
 
 from core.crash_log import write_crash_log
@@ -71,6 +73,12 @@ class PlanRunner(QObject):
             self.failed.emit("The scene cannot be planned yet:\n" + "\n".join(f"• {w}: {why}" for w, why in problems))
             return False
         self._cancel = CancelToken()
+        # Python's cyclic collector runs in whichever thread happens to allocate; run there, it can
+        # free a Qt object off the GUI thread, and PySide then deadlocks in the object's destructor
+        # (seen: the planning thread stuck in QObject::~QObject). So garbage is collected here, on
+        # the GUI thread, and automatic collection waits until the plan is done (_end).
+        gc.collect()
+        gc.disable()
         self._thread = QThread()
         # The current plan lends its context and every transition an edit did not touch.
         self._job = _PlanJob(self.document.scene, self.document.base_dir, self.document.workers, self._cancel,
@@ -111,4 +119,5 @@ class PlanRunner(QObject):
         if thread is not None:
             thread.quit()
             thread.wait()
+        gc.enable()
         self.done.emit(text)
