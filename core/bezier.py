@@ -54,6 +54,17 @@ def bernstein_to_monomial_matrix(degree: int) -> np.ndarray:
     return np.where(i <= k, m, 0.0)
 
 
+def monomial_to_bernstein(coefficients: np.ndarray, degree: int) -> np.ndarray:
+    """Bernstein coefficients ``(degree + 1,)`` on ``tau`` in [0, 1] of ``sum_k c_k tau**k`` with
+    ``coefficients`` ``(m + 1,)``, ``m <= degree``: ``b_j = sum_{k <= j} C(j, k) / C(n, k) c_k``
+    (Farin, *Curves and Surfaces for CAGD*, 2002, the power-to-Bernstein conversion)."""
+    c = np.zeros(degree + 1)
+    c[: len(coefficients)] = coefficients
+    j = np.arange(degree + 1)[:, None]
+    k = np.arange(degree + 1)[None, :]
+    return np.where(k <= j, comb(j, k) / comb(degree, k), 0.0) @ c
+
+
 def monomial_coefficients(points: np.ndarray, duration) -> np.ndarray:
     """Coefficients ``c[..., k, D]`` of ``p(t) = sum_k c_k t**k`` in local time ``t`` in [0, h]."""
     points = np.asarray(points, dtype=np.float64)

@@ -77,7 +77,8 @@ def _parser() -> argparse.ArgumentParser:
                     help="sampled states as samples.csv (default) or a compact columnar samples.parquet "
                          "(large fleets; needs pip install 'skyloom[columnar]')")
     pl.add_argument("--degree", type=int, help="Bézier degree of each piece (default: the scene's, usually 7)")
-    pl.add_argument("--profile", choices=["min_snap", "min_jerk"], help="rest-to-rest time profile")
+    pl.add_argument("--profile", choices=["cruise", "min_snap", "min_jerk"],
+                    help="time law of straight-line flights (default cruise)")
     pl.add_argument("--export-unverified", action="store_true",
                     help="write the export even if verification fails (every file is then marked UNVERIFIED)")
     pl.add_argument("--suboptimality", type=_finite, metavar="W",

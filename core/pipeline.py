@@ -102,10 +102,7 @@ def _context(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache:
 def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, progress: ProgressCallback,
           cancel: CancelToken, executor: Executor, source: str, previous: PlanResult | None,
           solver: MultiAgentSolver) -> PlanResult:
-    profile = PROFILES[settings.profile]
-    if profile.degree > settings.degree:
-        raise PlanningError(f"planner.degree {settings.degree} is too low for profile {profile.name} "
-                            f"(needs at least {profile.degree})")
+    _check_profiles(scene, settings)
     context, reused_context = _context(scene, settings, base_dir, use_cache, source, previous)
     timings: dict[str, float] = {"straight lines": 0.0, "roadmap assignment": 0.0}
     results, jobs = _chain(scene, context, previous if reused_context else None, timings, progress, cancel)
@@ -128,6 +125,17 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
                       base_dir, context, reused)
 
 
+def _check_profiles(scene: Scene, settings: PlannerSettings) -> None:
+    """Raise :class:`PlanningError` when a one-piece profile needs a higher ``planner.degree``."""
+    named = [("planner.profile", settings.profile)] + [
+        (f"timeline.transitions[{k}].profile", tr.profile) for k, tr in enumerate(scene.timeline.transitions)]
+    for where, name in named:
+        profile = PROFILES.get(name)
+        if profile is not None and profile.degree > settings.degree:
+            raise PlanningError(f"{where}: planner.degree {settings.degree} is too low for profile {profile.name} "
+                                f"(needs at least {profile.degree})")
+
+
 def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, timings: dict[str, float],
            progress: ProgressCallback, cancel: CancelToken
            ) -> tuple[list[TransitionResult | None], list[tuple[int, TransitionProblem, object, float]]]:
@@ -146,7 +154,8 @@ def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, 
         problem = TransitionProblem(
             k, current.name, target.name, tr.assignment, positions, occupied, target.positions,
             None if current.groups is None else np.asarray(current.groups)[occupied],
-            None if target.groups is None else np.asarray(target.groups), tr.duration, tr.hold)
+            None if target.groups is None else np.asarray(target.groups), tr.duration, tr.hold,
+            tr.profile or context.settings.profile)
         earlier = previous.transitions[k] if previous is not None and k < len(previous.transitions) else None
         if earlier is not None and earlier.problem.same_as(problem):
             results.append(earlier)

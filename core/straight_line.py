@@ -6,7 +6,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from .bezier import elevate_degree
-from .timing import Profile
+from .timing import Profile, SharedTiming
 
 
 def straight_leg_points(starts: np.ndarray, goals: np.ndarray, profile: Profile, degree: int) -> np.ndarray:
@@ -17,6 +17,12 @@ def straight_leg_points(starts: np.ndarray, goals: np.ndarray, profile: Profile,
     s = np.asarray(profile.control_values, dtype=np.float64)
     points = starts[:, None, :] + s[None, :, None] * (goals - starts)[:, None, :]
     return elevate_degree(points, degree)
+
+
+def shared_leg_points(starts: np.ndarray, goals: np.ndarray, timing: SharedTiming) -> np.ndarray:
+    """Control points ``(N, S, n + 1, 3)`` of straight legs ``starts`` → ``goals`` ``(N, 3)`` flown on
+    the shared law ``timing`` (the Bézier form is affine, so ``start + s (goal - start)`` per value)."""
+    return starts[:, None, None, :] + timing.values[None, :, :, None] * (goals - starts)[:, None, None, :]
 
 
 def hold_points(positions: np.ndarray, degree: int) -> np.ndarray:

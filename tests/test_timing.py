@@ -10,8 +10,8 @@
 import numpy as np
 import pytest
 
-from core.straight_line import straight_leg_points
-from core.timing import MIN_JERK, MIN_SNAP, minimum_duration, trapezoid_lower_bound
+from core.straight_line import shared_leg_points, straight_leg_points
+from core.timing import MIN_JERK, MIN_SNAP, blend_order, cruise_timing, minimum_duration, trapezoid_lower_bound
 from core.trajectory import FleetTrajectory
 
 
@@ -61,3 +61,79 @@ def test_trapezoid_lower_bound_closed_form():
     assert trapezoid_lower_bound(np.array([[20.0, 0, 0]]), limits) == pytest.approx(20 / 4 + 4 / 2)
     assert trapezoid_lower_bound(np.array([[2.0, 0, 0]]), limits) == pytest.approx(2 * np.sqrt(1.0))
     assert trapezoid_lower_bound(np.array([[0, 0, 10.0]]), limits) == pytest.approx(10 / 2 + 2 / 2)
+
+
+# --- The cruise law -----------------------------------------------------------------------------
+# Closed forms (derived in core.timing.cruise_timing): for one leg of length L along an axis with
+# speed limit v and acceleration limit a, κ = 4/3,
+#   L ≥ κ v²/a:  T = L/v + κ v/a, peak speed v, peak acceleration a;
+#   L < κ v²/a:  T = 2 √(κ L / a), peak speed √(a L / κ), peak acceleration a.
+# The first is the double-S form T = L/v + v/a + T_j of Biagiotti & Melchiorri, "Trajectory
+# Planning for Automatic Machines and Robots", Springer 2008, §3.4 (from memory), with the jerk
+# phase a/j replaced by our blend time T_j = (1/4)(κ v/a): a symmetric blend gains the same speed
+# as a linear jerk ramp of the same length.
+
+KAPPA = 4 / 3
+
+
+def _cruise(leg, limits, degree):
+    timing = cruise_timing(np.array([leg], dtype=float), np.array([limits], dtype=float), degree)
+    pts = shared_leg_points(np.zeros((1, 3)), np.array([leg], dtype=float), timing)
+    return timing, FleetTrajectory(np.r_[0.0, np.cumsum(timing.durations)], pts, ("a",))
+
+
+@pytest.mark.parametrize("degree", [5, 7, 9, 11])
+@pytest.mark.parametrize(("length", "axis"), [(40.0, 0), (1.5, 0), (7.0, 2), (0.2, 1)])
+def test_cruise_law_meets_its_closed_forms(degree, length, axis):
+    v_xy, v_z, a = 4.0, 2.0, 3.0
+    v = v_z if axis == 2 else v_xy
+    leg = np.eye(3)[axis] * length
+    timing, traj = _cruise(leg, (v_xy, v_z, a), degree)
+    cruises = length >= KAPPA * v * v / a
+    expected_t = length / v + KAPPA * v / a if cruises else 2 * np.sqrt(KAPPA * length / a)
+    assert timing.duration == pytest.approx(expected_t, rel=1e-12)
+    t = np.linspace(0, timing.duration, 400001)
+    speed = np.linalg.norm(traj.evaluate(t, 1)[:, 0], axis=1).max()
+    accel = np.linalg.norm(traj.evaluate(t, 2)[:, 0], axis=1).max()
+    assert speed == pytest.approx(v if cruises else np.sqrt(a * length / KAPPA), rel=1e-6)
+    assert accel == pytest.approx(a, rel=1e-6)
+    end = traj.evaluate(np.array([timing.duration]))[0, 0]
+    np.testing.assert_array_equal(end, leg)  # the goal exactly
+
+
+@pytest.mark.parametrize("degree", [5, 7, 9])
+def test_cruise_law_is_smooth_at_every_join_and_at_rest_at_both_ends(degree):
+    m = blend_order(degree)
+    timing, traj = _cruise((30.0, 10.0, 4.0), (5.0, 2.0, 2.5), degree)
+    assert len(timing.durations) == 7  # speed up (3), cruise, slow down (3)
+    assert np.all(np.diff(timing.values.ravel()) >= -1e-15)  # s is monotone: Bézier values never fall
+    for order in range(1, min(m + 2, 4) + 1):  # FleetTrajectory evaluates up to snap
+        left = traj.evaluate(traj.breaks[1:-1] - 1e-12, order)
+        right = traj.evaluate(traj.breaks[1:-1] + 1e-12, order)
+        scale = np.abs(traj.evaluate(np.linspace(0, traj.duration, 2001), order)).max()
+        np.testing.assert_allclose(left, right, atol=1e-6 * scale)
+        ends = traj.evaluate(np.array([0.0, traj.duration]), order)
+        np.testing.assert_allclose(ends, 0.0, atol=1e-9 * scale)
+
+
+def test_cruise_law_of_a_fleet_is_bound_by_the_tightest_leg():
+    legs = np.array([[30.0, 0.0, 0.0], [0.0, 0.0, 12.0], [3.0, 4.0, 0.0], [0.0, 0.0, 0.0]])
+    limits = np.array([[6.0, 2.0, 3.0], [6.0, 2.0, 3.0], [6.0, 2.0, 3.0], [1.0, 1.0, 1.0]])
+    timing = cruise_timing(legs, limits, 9)
+    # U = min(6/30, 2/12, 6/5) = 1/6 (vertical leg); A = min(3/30, 3/12, 3/5) = 1/10 (long leg);
+    # √(A/κ) = 0.274 > U, so it cruises: T = κ U / A + 1 / U.
+    u, acc = 1 / 6, 1 / 10
+    assert timing.duration == pytest.approx(KAPPA * u / acc + 1 / u, rel=1e-12)
+    assert timing.binding == 1
+
+
+@pytest.mark.parametrize("length", [0.05, 0.5, 1.0, 1.7, 2.5, 6.0, 30.0, 300.0])
+def test_cruise_law_stays_within_its_bound_of_the_trapezoid(length):
+    # Derived: T/T_trapezoid ≤ √κ for one leg at the full limits (worst at L = v²/a), and limits
+    # scaled by a margin m multiply T by at most 1/m.
+    limits, margin = np.array([[4.0, 2.0, 3.0]]), 0.95
+    for direction in ([1.0, 0, 0], [0.6, 0.8, 0], [0, 0, 1.0], [0.5, 0.5, 0.7]):
+        leg = np.asarray([direction]) / np.linalg.norm(direction) * length
+        t = cruise_timing(leg, limits * margin, 9).duration
+        assert t / trapezoid_lower_bound(leg, limits) <= np.sqrt(KAPPA) / margin + 1e-12
+        assert t <= minimum_duration(leg, limits * margin, MIN_SNAP)[0] + 1e-12

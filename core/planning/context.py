@@ -25,7 +25,6 @@ from ..roadmap.graph import Roadmap
 from ..scene.checks import format_xyz
 from ..scene.meshes import SiteMesh, load_site_meshes
 from ..scene.model import PlannerSettings, Scene
-from ..timing import PROFILES, Profile
 from ..verify import VerificationSpec, spec_from_scene
 from .results import RoadmapFigures
 
@@ -53,7 +52,6 @@ class PlanningContext:
         self.scene, self.settings, self.base_dir, self.source = scene, settings, Path(base_dir), source
         self.use_cache = use_cache
         self.clearance = scene.fleet.clearance
-        self.profile: Profile = PROFILES[settings.profile]
         #: (N, 3) the speed and acceleration limits the planner may use (``limit_margin`` applied).
         self.limits = scene.fleet.limits * settings.limit_margin
         self.meshes: tuple[SiteMesh, ...] = load_site_meshes(scene.site, self.base_dir, source)

@@ -17,6 +17,7 @@ class TransitionProblem:
     goal_points : (P, 3) m, the ``target`` formation's points (the goal set)
     start_groups / goal_groups : (N,) / (P,) group labels, or None
     duration : s, or ``"fastest"``; hold : s of hovering after arrival
+    profile : time law of straight-line flights (``"cruise"``, ``"min_snap"``, ``"min_jerk"``)
     """
 
     index: int
@@ -30,6 +31,7 @@ class TransitionProblem:
     goal_groups: np.ndarray | None
     duration: float | Literal["fastest"]
     hold: float
+    profile: str = "cruise"
 
     @property
     def where(self) -> str:
@@ -43,7 +45,7 @@ class TransitionProblem:
                 return a is None and b is None
             return np.shape(a) == np.shape(b) and bool(np.all(np.asarray(a) == np.asarray(b)))
 
-        return (self.index, self.source, self.target, self.mode, self.duration, self.hold) == \
-            (other.index, other.source, other.target, other.mode, other.duration, other.hold) and all(
+        fields = ("index", "source", "target", "mode", "duration", "hold", "profile")
+        return all(getattr(self, f) == getattr(other, f) for f in fields) and all(
                 same(getattr(self, f), getattr(other, f))
                 for f in ("starts", "occupied", "goal_points", "start_groups", "goal_groups"))

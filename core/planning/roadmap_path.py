@@ -17,7 +17,7 @@ from ..scene.checks import format_xyz
 from ..smoothing.smoother import SmoothingOptions, smooth_transition
 from ..smoothing.terms import trajectory_cost
 from ..straight_line import straight_leg_points
-from ..timing import MIN_TRANSITION_DURATION, Profile, minimum_duration
+from ..timing import MIN_TRANSITION_DURATION, Profile, minimum_duration, step_profile
 from ..trajectory import FleetTrajectory
 from ..verify.checker import sampled_peaks
 from ..verify.discrete import check_discrete_plan
@@ -79,7 +79,8 @@ def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bo
         raise PlanningError(f"{problem.where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
                             f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
     positions = _moving_steps(positions)
-    durations, pieces = _stop_and_go(positions, context.profile, settings.degree, context.limits)
+    durations, pieces = _stop_and_go(positions, step_profile(problem.profile, settings.degree), settings.degree,
+                                     context.limits)
     baseline = _baseline_figures(durations, pieces, ids)
     method, smoothing = TransitionMethod.STOP_AND_GO, None
     if settings.smoothing and len(durations):

@@ -7,9 +7,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..assignment import Assignment, assign
+from ..bezier import elevate_degree
 from ..progress import CancelToken, ProgressCallback, no_progress
-from ..straight_line import straight_leg_points, synchronized_spacing_holds
-from ..timing import MIN_TRANSITION_DURATION, minimum_duration, trapezoid_lower_bound
+from ..straight_line import shared_leg_points, synchronized_spacing_holds
+from ..timing import shared_timing, trapezoid_lower_bound
 from ..trajectory import FleetTrajectory
 from ..verify import VerificationSpec
 from ..verify.checker import check_separation
@@ -40,26 +41,28 @@ def plan_straight(problem: TransitionProblem, context: PlanningContext, *, progr
     goals = problem.goal_points[chosen.goal_of]
     legs = goals - problem.starts
     bound = trapezoid_lower_bound(legs, fleet.limits)
-    per_drone = minimum_duration(legs, context.limits, context.profile)
-    needed = max(float(per_drone.max()), MIN_TRANSITION_DURATION)
-    leg_points = straight_leg_points(problem.starts, goals, context.profile, settings.degree)
+    timing = shared_timing(legs, context.limits, problem.profile, settings.degree)
+    needed = timing.duration
     guarantee = clearance.homogeneous and problem.mode == "unlabeled" \
         and synchronized_spacing_holds(problem.starts, goals, clearance.pair_envelope)
-    # On a shared time profile the relative motion does not depend on the duration.
-    if not (context.legs_clear(problem.starts, goals) and (guarantee or _separated(leg_points, needed, context.spec))):
+    if not (context.legs_clear(problem.starts, goals)
+            and (guarantee or _separated(problem.starts, goals, settings.degree, context.spec))):
         return StraightAttempt(chosen, bound, None)
-    slowest = int(np.argmax(per_drone))
+    slowest = timing.binding
     duration = requested_duration(
         problem.where, problem.duration, needed, f"the limits (at {settings.limit_margin:.0%}) need",
-        f" (longest leg: drone {fleet.ids[slowest]}, {np.linalg.norm(legs[slowest]):.2f} m)")
+        f" (binding leg: drone {fleet.ids[slowest]}, {np.linalg.norm(legs[slowest]):.2f} m)")
     return StraightAttempt(chosen, bound, TransitionResult(
-        problem, TransitionMethod.STRAIGHT, chosen, np.array([duration]), leg_points[:, None], duration, needed, bound,
-        guarantee))
+        problem, TransitionMethod.STRAIGHT, chosen, timing.durations * (duration / needed),
+        shared_leg_points(problem.starts, goals, timing), duration, needed, bound, guarantee))
 
 
-def _separated(leg_points: np.ndarray, duration: float, spec: VerificationSpec) -> bool:
-    """Whether one straight-line piece ``(N, n + 1, 3)`` of ``duration`` s keeps every pair separated
-    (the verifier's continuous-time separation check on that piece alone)."""
-    piece = FleetTrajectory(np.array([0.0, duration]), leg_points[:, None], spec.drone_ids, ("candidate",))
+def _separated(starts: np.ndarray, goals: np.ndarray, degree: int, spec: VerificationSpec) -> bool:
+    """Whether straight legs ``starts`` → ``goals`` ``(N, 3)`` keep every pair separated: the
+    verifier's continuous-time separation check on one constant-speed piece. On a shared path
+    parameter the relative positions depend on ``s`` only, never on how ``s`` is timed, so this
+    answers for every shared law."""
+    line = elevate_degree(np.stack([starts, goals], axis=1), degree)
+    piece = FleetTrajectory(np.array([0.0, 1.0]), line[:, None], spec.drone_ids, ("candidate",))
     violations, *_ = check_separation(piece, spec)
     return not violations

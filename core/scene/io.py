@@ -70,6 +70,9 @@ def scene_to_dict(scene: Scene, inline_csv: bool = False) -> dict:
             f.pop("csv")
             if f.get("groups") is None:
                 f.pop("groups")
+    for tr in data["timeline"]["transitions"]:
+        if tr.get("profile") is None:
+            tr.pop("profile")  # planner.profile applies
     return data
 
 

@@ -204,6 +204,9 @@ class Formation:
         return np.array(self.points, dtype=np.float64)
 
 
+ProfileName = Literal["cruise", "min_snap", "min_jerk"]
+
+
 @dataclass(config=_STRICT)
 class Transition:
     """Fly from the previous formation to ``to``, then hover ``hold`` seconds.
@@ -215,6 +218,8 @@ class Transition:
     assignment: AssignmentMode = "unlabeled"
     duration: Seconds | Literal["fastest"] = "fastest"
     hold: Hold = 0.0
+    #: Time law of straight-line flights for this transition (None: ``planner.profile``).
+    profile: ProfileName | None = None
 
 
 @dataclass(config=_STRICT)
@@ -238,7 +243,9 @@ class PlannerSettings:
     """
 
     degree: _integer(ge=5, le=15) = 9
-    profile: Literal["min_snap", "min_jerk"] = "min_snap"
+    #: Time law of straight-line flights: ``cruise`` (speed up, cruise, slow down) or one
+    #: rest-to-rest polynomial (``min_snap``, ``min_jerk``; also the stop-and-go steps' shape).
+    profile: ProfileName = "cruise"
     limit_margin: _finite(gt=0.5, le=1.0) = 0.95
     #: Roadmap (used where straight lines are blocked): free-space samples drawn, neighbours tried
     #: per vertex, spanner stretch factor, sampler seed.
