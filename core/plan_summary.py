@@ -14,8 +14,11 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
     lines = [f"warning: {w}" for w in result.warnings]
     for t in result.transitions:
         p = t.problem
+        free = "" if t.free_space_ratio is None else \
+            f", {t.free_space_ratio:.2f}× the free-space bound {t.free_space_bound:.2f} s"
         lines.append(f"{p.source} → {p.target}: {p.mode} ({t.assignment.method}), {t.method_text}, {t.duration:.2f} s "
-                     f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the straight-line lower bound)")
+                     f"(minimum {t.minimum_duration:.2f} s, {t.makespan_ratio:.2f}× the straight-line lower bound"
+                     f"{free})")
         s, base = t.search, t.stop_and_go
         if s is None:
             continue
@@ -29,7 +32,14 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
                 lines.append(f"  smoothing round {h.iteration}: QP objective {h.qp_objective:.4g} did not "
                              "improve; stopped")
                 continue
-            verdict = "accepted" if h.accepted else "rejected (failed verification)"
+            verdict = "accepted" if h.accepted else \
+                ("rejected (failed verification)" if not h.verified else "rejected (no shorter)")
+            if h.retimed:
+                verdict = "step durations re-allocated, " + verdict
+            if h.fell_back:
+                verdict += f"; kept their earlier curves: {_names(h.fell_back)}"
+            if h.second_solver:
+                verdict += f"; solved by the second QP solver: {_names(h.second_solver)}"
             lines.append(f"  smoothing round {h.iteration}: {h.duration_s:.2f} s "
                          f"({h.duration_s / base.duration_s:.2f}× stop-and-go), peak acceleration "
                          f"{h.peak_acceleration:.2f} m/s², peak snap {h.peak_snap:.3g} m/s⁴, ∫|snap|² "
@@ -46,3 +56,9 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
                      + ", ".join(str(k) for k in result.reused))
     lines.append("stage times: " + ", ".join(f"{k} {v:.2f} s" for k, v in result.stage_seconds.items()))
     return lines
+
+
+def _names(ids: tuple[str, ...], shown: int = 5) -> str:
+    """Drone ids, the first ``shown`` of them, with how many more."""
+    more = f" and {len(ids) - shown} more" if len(ids) > shown else ""
+    return ", ".join(ids[:shown]) + more

@@ -13,9 +13,10 @@ from core.executors import InlineExecutor
 from core.pipeline import plan, with_settings
 from core.planning import TransitionMethod
 from core.scene import scene_from_dict
-from core.smoothing import qp
+from core.smoothing import qp, smoother
 from core.smoothing.smoother import SmoothingOptions, smooth_transition
-from core.verify import VerificationSpec, spec_from_scene
+from core.trajectory import FleetTrajectory
+from core.verify import VerificationSpec, spec_from_scene, verify
 
 # Four drones crossing through the middle of a square: straight lines collide, so the roadmap
 # plan is smoothed.
@@ -38,8 +39,12 @@ def test_crossing_is_smoothed_verified_and_faster_than_stop_and_go(cross_result)
     assert cross_result.verified and t.method is TransitionMethod.SMOOTHED
     history = [h for h in t.smoothing.rounds if h.accepted]
     assert history and all(h.verified for h in history)
-    qp_objectives = [h.qp_objective for h in history]
-    assert qp_objectives == sorted(qp_objectives, reverse=True)  # each round is feasible for the next
+    for before, after in zip(history, history[1:], strict=False):
+        if after.retimed:  # a round at new step durations is kept only when it shortens the flight
+            assert after.duration_s < before.duration_s
+        else:  # at the same durations each round's start is feasible for the next
+            assert after.qp_objective <= before.qp_objective
+    assert any(h.retimed for h in history)
     assert t.duration < t.stop_and_go.duration_s
     assert history[-1].snap_integral < t.stop_and_go.snap_integral
     # no stops inside the transition: speed is well above zero at every interior join
@@ -71,13 +76,82 @@ def test_any_executor_gives_the_same_plan(cross_result):
         assert np.allclose(other.trajectory.control_points, cross_result.trajectory.control_points, atol=1e-9)
 
 
-def test_solver_failure_names_the_drone_and_keeps_stop_and_go(monkeypatch):
+def test_osqp_at_its_iteration_cap_is_retried_with_clarabel(monkeypatch):
     monkeypatch.setitem(qp.SOLVER_OPTIONS, "max_iter", 5)
     result = plan(_cross_scene(), executor=InlineExecutor())
     t = result.transitions[0]
+    assert result.verified and t.method is TransitionMethod.SMOOTHED and t.smoothing.note is None
+    warm_rounds = [h for h in t.smoothing.rounds[1:] if h.duration_s is not None]
+    assert warm_rounds and all(len(h.second_solver) == 4 for h in warm_rounds)  # OSQP first, Clarabel solved
+
+
+def _failing_for(drones):
+    """``solve_drone`` as if every solver failed for the drones in ``drones``."""
+    real = smoother.solve_drone
+
+    def solve(problem):
+        if problem.drone in drones:
+            return qp.DroneSolution(problem.drone, False, "maximum iterations reached; Clarabel: NumericalError",
+                                    None, float("nan"), 5, 0.0, (1, "rest at start"))
+        return real(problem)
+    return solve
+
+
+def test_a_drone_whose_qp_fails_keeps_its_earlier_curve_and_the_rest_are_smoothed(monkeypatch):
+    """Mixing curves is safe by the corridor argument in ``smoother._mixed``; the verifier is the judge."""
+    monkeypatch.setattr(smoother, "solve_drone", _failing_for({1}))
+    scene = _cross_scene()
+    # Climb to one altitude each, cross there, descend (the layers are 1.5 m apart: clear).
+    layer = np.array([[0.0, 0, 0], [0, 0, 1.5], [0, 0, 3.0], [0, 0, 4.5]])
+    positions = np.stack([CROSS["a"], CROSS["a"] + layer, CROSS["b"] + layer, CROSS["b"]], axis=1)
+    spec = spec_from_scene(scene)
+    options = SmoothingOptions(9, 3, {"snap": 1.0})
+    clearance = scene.fleet.clearance
+    outcome = smooth_transition("test", positions, clearance, clearance.envelope, None,
+                                scene.fleet.limits * 0.95, spec, options, InlineExecutor())
+    first = outcome.history[0]
+    assert outcome.pieces is not None and first.accepted and first.verified and first.fell_back == ("d1",)
+    assert "QP failed for drone d1 at step 2 (rest at start)" in outcome.note
+    assert "kept their curves of the round before" in outcome.note
+    # Drone d1 keeps its stop-and-go curve (at rest at every step's end), the others do not stop.
+    traj = FleetTrajectory(np.r_[0.0, np.cumsum(outcome.durations)], outcome.pieces, spec.drone_ids)
+    assert verify(traj, spec).ok
+    speeds = np.linalg.norm(traj.evaluate(traj.breaks[1:-1], 1), axis=-1)  # (joins, N)
+    assert np.allclose(speeds[:, 1], 0.0, atol=1e-9) and speeds[1, [0, 2, 3]].min() > 0.05
+
+
+def test_a_mix_slower_than_stop_and_go_is_not_kept(monkeypatch):
+    """Every drone moves in every step of the crossing, so a drone held to its stop-and-go curve
+    makes the shared steps at least as long as stopping everywhere: the plan says so and stays."""
+    monkeypatch.setattr(smoother, "solve_drone", _failing_for({1}))
+    t = plan(_cross_scene(), executor=InlineExecutor()).transitions[0]
+    assert t.method is TransitionMethod.STOP_AND_GO and t.smoothing.rounds[0].fell_back == ("d1",)
+    assert "longer than stopping at every waypoint" in t.smoothing.note
+
+
+def test_when_every_qp_fails_the_plan_stays_stop_and_go_and_says_why(monkeypatch):
+    monkeypatch.setattr(smoother, "solve_drone", _failing_for({0, 1, 2, 3}))
+    result = plan(_cross_scene(), executor=InlineExecutor())
+    t = result.transitions[0]
     assert result.verified and t.method is TransitionMethod.STOP_AND_GO
-    assert "QP failed for drone d" in t.smoothing.note and "maximum iterations" in t.smoothing.note
+    assert "QP failed for drone d0" in t.smoothing.note and "maximum iterations" in t.smoothing.note
     assert "kept the stop-and-go plan" in t.smoothing.note
+
+
+def test_take_off_and_landing_on_the_floor_of_the_flight_volume_are_smoothed_and_verified():
+    """Pads at z = 0, the volume's floor, and a keep-out box between them and the goals (the
+    stop-and-go and the smoothed curves start exactly on the boundary)."""
+    pads = np.array([[-6.0, -3.0, 0.0], [-6.0, 0.0, 0.0], [-6.0, 3.0, 0.0]])
+    goals = np.array([[5.0, -2.0, 4.0], [5.0, 0.0, 5.0], [5.0, 2.0, 4.0]])
+    scene = scene_from_dict(scene_dict({"pads": pads, "up": goals, "down": pads},
+                                       [{"to": "up", "assignment": "labeled"}, {"to": "down", "assignment": "labeled"}],
+                                       volume=((-9, -6, 0), (9, 6, 8)),
+                                       keep_out=[((-1.5, -5.5, 0.0), (0.0, 5.5, 6.0))]))
+    result = plan(scene, executor=InlineExecutor())
+    assert result.verified
+    for t in result.transitions:
+        assert t.method is TransitionMethod.SMOOTHED, t.smoothing.note
+    assert result.trajectory.control_points[..., 2].min() >= 0.0
 
 
 def test_an_iterate_that_fails_verification_is_never_kept():

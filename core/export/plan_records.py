@@ -15,14 +15,17 @@ if TYPE_CHECKING:  # records are read, never built, here: the export needs no pl
 
 
 def transition_record(t: TransitionResult) -> dict:
-    """``plan.json`` ``transitions[k]``: endpoints, assignment, durations (s), method and, for
-    roadmap transitions, ``search`` (solver figures, ``stop_and_go``, ``smoothed``, ``smoothing[]``
+    """``plan.json`` ``transitions[k]``: endpoints, assignment, durations (s), method, profile and, for
+    roadmap transitions, ``free_space_bound_s`` with its ratio and ``search`` (solver figures,
+    ``stop_and_go``, ``smoothed``, ``smoothing[]``
     per round, ``smoothing_note``, ``smoothing_seconds``)."""
     p = t.problem
     record = {"from": p.source, "to": p.target, "assignment": p.mode, "assignment_method": t.assignment.method,
               "duration_s": t.duration, "minimum_duration_s": t.minimum_duration, "lower_bound_s": t.lower_bound,
               "makespan_ratio": t.makespan_ratio, "method": t.method_text, "spacing_guarantee": t.spacing_guarantee,
-              "pieces": len(t.durations), "search": {}}
+              "profile": p.profile, "pieces": len(t.durations), "search": {}}
+    if t.free_space_bound is not None:
+        record.update(free_space_bound_s=t.free_space_bound, free_space_ratio=t.free_space_ratio)
     if t.search is not None:
         s = t.search
         record["search"] = {

@@ -66,7 +66,9 @@ class TransitionResult:
 
     durations : (K,) s of its pieces; pieces : (N, K, n + 1, 3) m Bézier control points;
     duration : s (their sum); minimum_duration : s the plan needs; lower_bound : s, the
-    trapezoidal-profile bound of the longest straight leg; assignment : goal point per drone.
+    trapezoidal-profile bound of the longest straight leg; assignment : goal point per drone;
+    free_space_bound : s, for roadmap transitions the longest drone's shortest obstacle-free
+    (roadmap) path flown alone at the limits (see :func:`~.roadmap_path.free_space_bound`).
     """
 
     problem: TransitionProblem
@@ -81,11 +83,19 @@ class TransitionResult:
     search: SearchFigures | None = None
     stop_and_go: StopAndGoFigures | None = None
     smoothing: SmoothingFigures | None = None
+    free_space_bound: float | None = None
 
     @property
     def makespan_ratio(self) -> float:
         """Duration over the trapezoidal-profile lower bound of the longest leg (≥ 1)."""
         return self.duration / self.lower_bound if self.lower_bound > 0 else 1.0
+
+    @property
+    def free_space_ratio(self) -> float | None:
+        """Duration over :attr:`free_space_bound` (None for straight-line transitions)."""
+        if self.free_space_bound is None:
+            return None
+        return self.duration / self.free_space_bound if self.free_space_bound > 0 else 1.0
 
     @property
     def ends(self) -> np.ndarray:

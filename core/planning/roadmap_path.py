@@ -6,6 +6,7 @@ from __future__ import annotations
 from concurrent.futures import Executor
 
 import numpy as np
+from scipy.sparse import csgraph
 
 from ..assignment import Assignment, assign_by_cost
 from ..errors import PlanningError
@@ -17,7 +18,7 @@ from ..scene.checks import format_xyz
 from ..smoothing.smoother import SmoothingOptions, smooth_transition
 from ..smoothing.terms import trajectory_cost
 from ..straight_line import straight_leg_points
-from ..timing import MIN_TRANSITION_DURATION, Profile, minimum_duration, step_profile
+from ..timing import MIN_TRANSITION_DURATION, Profile, minimum_duration, step_profile, trapezoid_lower_bound
 from ..trajectory import FleetTrajectory
 from ..verify.checker import sampled_peaks
 from ..verify.discrete import check_discrete_plan
@@ -88,14 +89,49 @@ def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bo
         outcome = smooth_transition(problem.where, positions, context.clearance, context.clearance.envelope,
                                     context.field, context.limits, context.spec, options,
                                     executor or InlineExecutor(), progress=progress, cancel=cancel)
-        smoothing = SmoothingFigures(tuple(outcome.history), outcome.note, outcome.seconds)
-        if outcome.pieces is not None:
+        note = outcome.note
+        if outcome.pieces is not None and outcome.durations.sum() <= durations.sum():
             method, durations, pieces = TransitionMethod.SMOOTHED, outcome.durations, outcome.pieces
+        elif outcome.pieces is not None:  # drones that kept stop-and-go curves made it slower
+            note = (f"{note}; " if note else "") + (
+                f"{problem.where}: the smoothed plan took {outcome.durations.sum():.2f} s, longer than stopping at "
+                f"every waypoint ({durations.sum():.2f} s); kept the stop-and-go plan")
+        smoothing = SmoothingFigures(tuple(outcome.history), note, outcome.seconds)
     needed = max(float(durations.sum()), MIN_TRANSITION_DURATION)
     duration = requested_duration(problem.where, problem.duration, needed,
                                   "the roadmap plan around the obstacles needs")
     return TransitionResult(problem, method, assignment, durations * (duration / needed), pieces, duration, needed,
-                            lower_bound, False, found.figures, baseline, smoothing)
+                            lower_bound, False, found.figures, baseline, smoothing,
+                            free_space_bound(roadmap, starts, goals, context.scene.fleet.limits))
+
+
+def free_space_bound(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, limits: np.ndarray) -> float:
+    """The longest per-drone time (s) to fly its shortest roadmap path from vertex ``starts[i]`` to
+    ``goals[i]`` ``(N,)`` alone, from rest to rest at the full ``limits`` ``(N, 3)``: a trapezoidal
+    speed profile over the path length at the speed limit averaged along the path (each edge at
+    the horizontal/vertical limit of its direction), without slowing for turns. It ignores the
+    other drones, so "× this bound" says how much the fleet costs; it is not a strict lower bound,
+    since the roadmap's shortest path is only near the shortest obstacle-free one."""
+    sources, index = np.unique(starts, return_inverse=True)
+    _, predecessors = csgraph.dijkstra(roadmap.length_matrix, directed=False, indices=sources,
+                                       return_predecessors=True)
+    worst = 0.0
+    for i, (row, goal) in enumerate(zip(index, goals, strict=True)):
+        chain = [int(goal)]
+        while chain[-1] != sources[row]:
+            chain.append(int(predecessors[row, chain[-1]]))
+        legs = np.diff(roadmap.vertices[chain[::-1]], axis=0)
+        if not len(legs):
+            continue
+        length = np.linalg.norm(legs, axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            speed = np.minimum(limits[i, 0] * length / np.linalg.norm(legs[:, :2], axis=1),
+                               limits[i, 1] * length / np.abs(legs[:, 2]))
+        total = float(length.sum())
+        v = total / float(np.sum(length / speed))
+        along = np.array([[total, 0.0, 0.0]])
+        worst = max(worst, trapezoid_lower_bound(along, np.array([[v, v, limits[i, 2]]])))
+    return worst
 
 
 def _point(problem: TransitionProblem, context: PlanningContext, k: int) -> str:

@@ -14,7 +14,7 @@ import numpy as np
 from ..bezier import bernstein_basis
 from ..objectives import TERM_ORDER
 from .limits import ACCELERATION_DIRECTIONS, HORIZONTAL_DIRECTIONS, inscribed_scale
-from .qp import DroneProblem
+from .qp import VOLUME_SLACK, DroneProblem
 from .terms import continuity_order, rest_order
 
 
@@ -46,12 +46,15 @@ def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variab
         cons += [deriv(0, r)[0] == 0, deriv(len(h) - 1, r)[-1] == 0]
     for k in range(len(h) - 1):
         cons += [deriv(k, r)[-1] == deriv(k + 1, r)[0] for r in range(continuity_order(n) + 1)]
-    low, high = problem.volume_bounds()
+    low, high = problem.volume[0] + VOLUME_SLACK, problem.volume[1] - VOLUME_SLACK
+    pinned = rest_order(problem.weights) + 1  # control points equal to the start / goal
     for k in range(len(h)):
         rows = problem.pieces == k
         if rows.any():
             cons.append(b[k] @ problem.normals[rows].T <= problem.offsets[rows][None, :])
-        cons += [b[k] >= low, b[k] <= high]
+        first = pinned if k == 0 else 0
+        last = n + 1 - pinned if k == len(h) - 1 else n + 1
+        cons += [b[k][first:last] >= low, b[k][first:last] <= high]
         v, a = deriv(k, 1), deriv(k, 2)
         vh, vv, acc = problem.limits
         cons += [cp.abs(v @ HORIZONTAL_DIRECTIONS.T) <= vh * inscribed_scale(HORIZONTAL_DIRECTIONS),

@@ -32,15 +32,21 @@ from .terms import curve_costs, rest_order, trajectory_cost
 IMPROVEMENT_TOLERANCE = 1e-3
 #: Sub-pieces per piece when bounding derivatives for the time compression (tighter hulls).
 BOUND_SUBDIVISIONS = 4
+#: Re-allocating step durations stops when a round shortens the flight by less than this fraction.
+RETIMING_TOLERANCE = 1e-2
+#: Smallest factor by which one round may shorten a step.
+RETIMING_STEP = 0.3
 
 
 @dataclass(frozen=True)
 class SmoothingOptions:
-    """degree : Bézier degree; iterations : at most this many QP rounds; weights : objective."""
+    """degree : Bézier degree; iterations : at most this many QP rounds; weights : objective;
+    allocate_steps : re-allocate the step durations in the rounds after the first."""
 
     degree: int
     iterations: int
     weights: dict[str, float]
+    allocate_steps: bool = True
 
 
 @dataclass(frozen=True)
@@ -54,6 +60,12 @@ class SmoothingRound:
     accepted: bool
     qp_iterations: int
     qp_seconds: float
+    #: Drones whose QP failed in this round and kept their curve of the round before.
+    fell_back: tuple[str, ...] = ()
+    #: Whether the round re-allocated the step durations.
+    retimed: bool = False
+    #: Drones whose QP the first solver failed and the second solved.
+    second_solver: tuple[str, ...] = ()
     duration_s: float | None = None
     objective: float | None = None
     snap_integral: float | None = None
@@ -93,6 +105,13 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
 
     ``limits`` ``(N, 3)`` are the planner's (margin applied) speed/acceleration limits; ``spec`` is
     what the verifier checks every iterate against.
+
+    Round 1 solves every moving drone's QP at step durations where the stop-and-go curves are
+    feasible; later rounds first re-allocate the step durations (:func:`allocate_steps`) while
+    that shortens the flight, then only re-centre the planes. In a round at unchanged durations a
+    drone whose QP fails keeps its curve of the round before — the corridors make any such mix
+    safe (see :func:`_mixed`); a round at new durations is kept whole or not at all, since the
+    earlier curves do not fit the new durations.
     """
     cancel = cancel or CancelToken()
     seconds = {"corridors": 0.0, "qp": 0.0, "verification": 0.0}
@@ -107,54 +126,135 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     tubes = step_tubes(starts, ends, envelope, field)
     planes = initial_planes(starts, ends, clearance, envelope)
     seconds["corridors"] += time.perf_counter() - t0
-    previous = stop_at_vertices_points(starts, ends, options.degree)
-    token = secrets.token_hex(8)  # names this transition's fixed QP parts in every worker process
-    references = curve_costs(previous, qp_durations, options.weights)
-    best_objective = np.inf
+    previous = stop_and_go = stop_at_vertices_points(starts, ends, options.degree)
+    moving = [i for i in range(len(positions)) if np.any(positions[i] != positions[i, :1])]
+    # Names the fixed QP parts (which depend on the step durations) in every worker process.
+    token = current_token = secrets.token_hex(8)
+    best_objective, best_duration, retiming = np.inf, np.inf, options.allocate_steps
+    notes: list[str] = []
     for it in range(options.iterations):
         cancel.check()
         progress("smoothing", it / options.iterations, f"{where}: iteration {it + 1} of {options.iterations}")
+        new_durations = it > 0 and retiming
+        durations = allocate_steps(outcome.pieces, qp_durations, limits) if new_durations else qp_durations
         t0 = time.perf_counter()
-        problems = [_problem(i, positions, qp_durations, tubes, planes, spec, limits, options, previous[i],
-                             float(references[i]), token) for i in range(len(positions))]
+        # The solver's cost unit: the stop-and-go curve's cost at these durations, in every round
+        # (scaling at each round's own warm start made round 2 hit the iteration cap).
+        scales = curve_costs(stop_and_go, durations, options.weights)
+        references = curve_costs(previous, durations, options.weights)
+        problems = [_problem(i, positions, durations, tubes, planes, spec, limits, options, previous[i],
+                             float(scales[i]), f"{token}:{it}" if new_durations else current_token,
+                             cold=outcome.pieces is None) for i in moving]
         solutions: list[DroneSolution] = list(executor.map(solve_drone, problems))
         seconds["qp"] += time.perf_counter() - t0
         failed = [s for s in solutions if not s.ok]
-        if failed:
-            outcome.note = _failure_note(where, it, failed, spec.drone_ids, outcome.pieces is not None)
+        if failed and (new_durations or len(failed) == len(solutions)):
+            notes.append(_failure_note(where, it, failed, spec.drone_ids,
+                                       "the step durations of the round before" if new_durations
+                                       else _kept(outcome.pieces is not None)))
+            if new_durations:
+                retiming = False
+                continue
             break
-        pieces = np.stack([s.points for s in solutions])
-        objective = float(sum(s.objective for s in solutions))
-        if objective >= best_objective * (1.0 - IMPROVEMENT_TOLERANCE):
-            outcome.history.append(_figures(it, objective, None, None, solutions, accepted=False))
+        pieces = _mixed(previous, solutions)
+        objective = float(sum(references[i] for i in range(len(previous)))
+                          - sum(references[s.drone] - s.objective for s in solutions if s.ok))
+        if not new_durations and objective >= best_objective * (1.0 - IMPROVEMENT_TOLERANCE):
+            outcome.history.append(_figures(it, objective, None, None, solutions, accepted=False,
+                                            ids=spec.drone_ids))
             break
-        durations = qp_durations * _compression(pieces, qp_durations, limits)
+        timed = durations * _compression(pieces, durations, limits)
         t0 = time.perf_counter()
-        report = verify(FleetTrajectory(np.r_[0.0, np.cumsum(durations)], pieces, spec.drone_ids), spec)
+        report = verify(FleetTrajectory(np.r_[0.0, np.cumsum(timed)], pieces, spec.drone_ids), spec)
         seconds["verification"] += time.perf_counter() - t0
-        outcome.history.append(_figures(it, objective, durations, pieces, solutions, report=report,
-                                        accepted=report.ok, weights=options.weights))
+        shorter = float(timed.sum()) < best_duration * (1.0 - RETIMING_TOLERANCE)
+        kept = report.ok and (shorter or not new_durations)
+        outcome.history.append(_figures(it, objective, timed, pieces, solutions, report=report, accepted=kept,
+                                        weights=options.weights, fell_back=[spec.drone_ids[s.drone] for s in failed],
+                                        retimed=bool(new_durations), ids=spec.drone_ids))
+        if failed:
+            notes.append(_failure_note(where, it, failed, spec.drone_ids, "their curves of the round before"))
         if not report.ok:
             v = report.violations[0]
-            outcome.note = (f"{where}: smoothing iteration {it + 1} failed verification ({len(report.violations)} "
-                            f"problems, first: {v.describe()}); kept {_kept(outcome.pieces is not None)}")
+            notes.append(f"{where}: smoothing iteration {it + 1} failed verification ({len(report.violations)} "
+                         f"problems, first: {v.describe()}); kept "
+                         + ("the step durations of the round before" if new_durations
+                            else _kept(outcome.pieces is not None)))
+            if new_durations:
+                retiming = False
+                continue
             break
-        outcome.durations, outcome.pieces, best_objective = durations, pieces, objective
+        if not kept:  # re-timing no longer shortens the flight: shape rounds from here on
+            retiming = False
+            continue
+        outcome.durations, outcome.pieces = timed, pieces
+        best_objective, best_duration, qp_durations = objective, float(timed.sum()), durations
+        current_token = f"{token}:{it}" if new_durations else current_token
         t0 = time.perf_counter()
         planes = refined_planes(planes, pieces)
         seconds["corridors"] += time.perf_counter() - t0
         previous = pieces
+    outcome.note = "; ".join(notes) or None
     progress("smoothing", 1.0, f"{where}: done")
     return outcome
 
 
+def _mixed(previous: np.ndarray, solutions: list[DroneSolution]) -> np.ndarray:
+    """Each drone's new curve where its QP solved, else its curve of the round before
+    ``previous`` ``(N, K, n + 1, 3)`` (drones without a QP — those that never move — keep theirs).
+
+    Why any such mix is collision-free: the round's pair planes were placed between the curves of
+    the round before with a margin on each side (:func:`refined_planes`; in round 1 between the
+    roadmap steps, on which the stop-and-go curves lie), so every earlier curve satisfies them, as
+    does every new one (its QP's rows). Each pair with a plane at a step therefore has its two
+    pieces on opposite sides, ≥ the pair clearance apart, whichever curve each drone keeps; pairs
+    without a plane are farther apart than both tubes can reach; and every piece, old or new,
+    stays in its obstacle tube. The step durations are the same for both kinds of curve, so the
+    pieces are compared over the same time intervals.
+    """
+    pieces = previous.copy()
+    for s in solutions:
+        if s.ok:
+            pieces[s.drone] = s.points
+    return pieces
+
+
+def allocate_steps(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> np.ndarray:
+    """New step durations ``(K,)`` s for the next QP round: each step scaled by ``ρ_k / α``, where
+    ``ρ_k`` is the step's tightness — the factor by which its tightest drone's hull bounds of speed
+    and acceleration (on :data:`BOUND_SUBDIVISIONS` sub-pieces) could be sped up to the limits — and
+    ``α = max ρ_k`` the step that sets the uniform compression. Steps with room get shorter (to no
+    less than :data:`RETIMING_STEP` of their length), the binding step keeps its length, so after
+    the time compression the flight is shorter unless the new curves need more time (the smoother
+    then keeps the durations before). A coordinate search on the durations that equalises the
+    steps' tightness; durations are fleet-wide, so every corridor stays valid. (A square-root step,
+    tried first, took one more round for the same gain on the courtyard sample.)"""
+    rho = _step_tightness(pieces, durations, limits)
+    ratio = np.clip(rho / rho.max(), RETIMING_STEP, 1.0)
+    return durations * ratio
+
+
+def _step_tightness(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> np.ndarray:
+    """Per step ``(K,)``: the largest over drones of (hull speed / limit, √(hull acceleration / limit))
+    on :data:`BOUND_SUBDIVISIONS` sub-pieces; durations ``α h`` put the tightest at its limit."""
+    parts = split_equal_parts(pieces, BOUND_SUBDIVISIONS)  # (N, K, P, n+1, 3)
+    sub_h = (durations / BOUND_SUBDIVISIONS)[None, :, None]
+    v = derivative_control_points(parts, sub_h)
+    a = derivative_control_points(v, sub_h)
+    vh = np.linalg.norm(v[..., :2], axis=-1).max(axis=(2, 3)) / limits[:, None, 0]
+    vv = np.abs(v[..., 2]).max(axis=(2, 3)) / limits[:, None, 1]
+    acc = np.sqrt(np.linalg.norm(a, axis=-1).max(axis=(2, 3)) / limits[:, None, 2])
+    return np.max(np.stack([vh, vv, acc]), axis=(0, 1))
+
+
 def _problem(i: int, positions: np.ndarray, durations: np.ndarray, tubes: Tubes, planes: PairPlanes,
              spec: VerificationSpec, limits: np.ndarray, options: SmoothingOptions, initial: np.ndarray,
-             reference: float, token: str | None) -> DroneProblem:
+             reference: float, token: str | None, cold: bool) -> DroneProblem:
     normals, offsets, steps, partners = drone_rows(i, tubes, planes)
     return DroneProblem(i, options.degree, durations, positions[i, 0], positions[i, -1], normals, offsets, steps,
                         partners, spec.flight_volume, limits[i], options.weights, initial, reference or None,
-                        None if token is None else (token, i))
+                        None if token is None else (token, i),
+                        ("Clarabel", "OSQP") if cold else ("OSQP", "Clarabel"))
 
 
 def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> float:
@@ -162,19 +262,13 @@ def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) 
     :data:`BOUND_SUBDIVISIONS` sub-pieces) of speed and acceleration up to ``limits`` ``(N, 3)``:
     speeds scale by ``1/α``, accelerations by ``1/α²``, the geometry and its timing across drones
     stay the same, so the corridors still hold."""
-    parts = split_equal_parts(pieces, BOUND_SUBDIVISIONS)  # (N, K, P, n+1, 3)
-    sub_h = (durations / BOUND_SUBDIVISIONS)[None, :, None]
-    v = derivative_control_points(parts, sub_h)
-    a = derivative_control_points(v, sub_h)
-    vh = np.linalg.norm(v[..., :2], axis=-1).max(axis=(1, 2, 3)) / limits[:, 0]
-    vv = np.abs(v[..., 2]).max(axis=(1, 2, 3)) / limits[:, 1]
-    acc = np.sqrt(np.linalg.norm(a, axis=-1).max(axis=(1, 2, 3)) / limits[:, 2])
-    alpha = float(np.max(np.stack([vh, vv, acc])))
+    alpha = float(_step_tightness(pieces, durations, limits).max())
     return alpha if alpha > 0 else 1.0
 
 
 def _figures(it: int, objective: float, durations, pieces, solutions: list[DroneSolution], *, report=None,
-             accepted: bool, weights: dict[str, float] | None = None) -> SmoothingRound:
+             accepted: bool, weights: dict[str, float] | None = None, fell_back=(), retimed: bool = False,
+             ids=()) -> SmoothingRound:
     timed = {}
     if durations is not None:
         timed = dict(duration_s=float(durations.sum()), objective=trajectory_cost(pieces, durations, weights),
@@ -185,18 +279,20 @@ def _figures(it: int, objective: float, durations, pieces, solutions: list[Drone
                      min_separation_ratio=min(d.min_separation_ratio for d in report.drones))
     return SmoothingRound(iteration=it + 1, qp_objective=objective, accepted=accepted,
                           qp_iterations=int(sum(s.iterations for s in solutions)),
-                          qp_seconds=float(sum(s.seconds for s in solutions)), **timed)
+                          qp_seconds=float(sum(s.seconds for s in solutions)), fell_back=tuple(fell_back),
+                          retimed=retimed,
+                          second_solver=tuple(ids[s.drone] for s in solutions
+                                              if s.ok and "retried_after" in s.facts), **timed)
 
 
-def _failure_note(where: str, it: int, failed: list[DroneSolution], ids, have_iterate: bool) -> str:
+def _failure_note(where: str, it: int, failed: list[DroneSolution], ids, kept: str) -> str:
     parts = []
     for s in failed[:3]:
         at = f" at step {s.culprit[0] + 1} ({s.culprit[1]})" if s.culprit else ""
         at = re.sub(r"drone #(\d+)", lambda m: f"drone {ids[int(m.group(1))]}", at)
         parts.append(f"drone {ids[s.drone]}{at}: {s.status}")
     more = f" and {len(failed) - 3} more" if len(failed) > 3 else ""
-    return f"{where}: smoothing iteration {it + 1}: QP failed for " + "; ".join(parts) + more + \
-        f"; kept {_kept(have_iterate)}"
+    return f"{where}: smoothing iteration {it + 1}: QP failed for " + "; ".join(parts) + more + f"; kept {kept}"
 
 
 def _kept(have_iterate: bool) -> str:
