@@ -7,6 +7,8 @@ Hogan, "The coordination of arm movements", J. Neurosci. 5(7), 1985. Integrals �
 and ∫jerk² = 720 D²/T⁵ are derived from those polynomials (see ../shared/REFERENCES.md).
 """
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 from numpy.polynomial import Polynomial
@@ -134,3 +136,43 @@ def test_objective_text():
     for bad in ("bogus", "snap=-1", "speed=1", "snap=0"):
         with pytest.raises(ValueError, match="objective"):
             parse_objective(bad)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_our_clarabel_path_matches_the_cvxpy_formulation_solved_by_osqp(seed):
+    """The second solver (Clarabel through its own API, on our sparse matrices) against the
+    independent cvxpy formulation (finite differences, Gauss–Legendre quadrature) solved by OSQP at
+    tight tolerances: same optimum, and the result is feasible at production settings."""
+    problem = _random_problem(np.random.default_rng(10 + seed), pieces=2 + seed % 2, degree=7 + 2 * (seed % 2))
+    ours = solve_drone(replace(problem, solvers=("Clarabel",)))
+    _, objective = solve_reference(problem, "OSQP", eps_abs=1e-10, eps_rel=1e-10, max_iter=2_000_000, polishing=True)
+    assert ours.ok and ours.facts["solver"] == "Clarabel"
+    assert ours.objective == pytest.approx(objective, rel=2e-4, abs=1e-9)
+
+
+def test_a_failed_first_solver_hands_the_problem_to_the_second(monkeypatch):
+    problem = _random_problem(np.random.default_rng(7), pieces=3, degree=9)
+    capped = solve_drone(problem, {"max_iter": 5}, retry=False)
+    assert not capped.ok and "maximum iterations" in capped.status
+    retried = solve_drone(problem, {"max_iter": 5})
+    assert retried.ok and retried.facts["solver"] == "Clarabel"
+    assert "maximum iterations" in retried.facts["retried_after"]
+
+
+def test_pads_on_the_volume_floor_keep_every_control_point_inside_the_closed_volume():
+    """Start and goal on the floor z = 0 of the volume: the pinned rest points equal them exactly,
+    the others stay 1 mm inside, so the Bézier hull (and the curve) never leaves the volume."""
+    start, goal = np.array([0.0, 0.0, 0.0]), np.array([6.0, 1.0, 0.0])
+    corners = np.array([start, [2.0, 0.5, 2.0], [4.0, 0.5, 2.0], goal])
+    limits = np.array([3.0, 2.0, 4.0])
+    durations = safe_step_durations(corners[None, :-1], corners[None, 1:], limits[None], 9)
+    volume = np.array([[-5.0, -5.0, 0.0], [10.0, 5.0, 5.0]])
+    problem = _problem(9, durations, start, goal, {"snap": 1.0}, np.zeros((0, 3)), np.zeros(0),
+                       np.zeros(0, dtype=int), volume, limits,
+                       stop_at_vertices_points(corners[None, :-1], corners[None, 1:], 9)[0])
+    for solvers in (("OSQP",), ("Clarabel",)):
+        s = solve_drone(replace(problem, solvers=solvers))
+        assert s.ok, s.status
+        np.testing.assert_array_equal(s.points[0, :4], np.repeat(start[None], 4, axis=0))
+        np.testing.assert_array_equal(s.points[-1, -4:], np.repeat(goal[None], 4, axis=0))
+        assert s.points[..., 2].min() >= 0.0

@@ -1,0 +1,110 @@
+"""Invented stress scenes for the flight-quality benchmark and its tests (not tuned samples).
+
+Each builder returns ``(scene dict, files)``: ``files`` maps a mesh file name to the trimesh it must
+be written as, next to the scene. :func:`write_scene` writes both into a folder.
+
+* :func:`wall_crossing` — a labeled crossing of a wall through two 3 m gaps.
+* :func:`tower_stations` — drones stationed on the near side of a round tower move to its far side.
+* :func:`line_swap` — two lines of drones 8 m apart swap places head-on in open air.
+* :func:`floor_pads` — a mixed team takes off from pads on the floor of the flight volume, flies
+  over a low canopy to a crown, and lands again (grouped by type).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import trimesh
+
+QUAD = {"name": "quad", "radius_xy": 0.25, "radius_z": 0.6, "tracking_margin": 0.05,
+        "max_speed_xy": 3.0, "max_speed_z": 2.0, "max_acceleration": 2.5}
+
+
+def _scene(name: str, site: dict, types: list[dict], drone_types: list[str], formations: dict[str, np.ndarray],
+           transitions: list[dict], groups: dict[str, list[str]] | None = None) -> dict:
+    return {
+        "name": name, "description": "Invented stress scene for bench/bench_flight_quality.py.",
+        "site": site,
+        "fleet": {"types": types, "drones": [{"id": f"D{k + 1:03d}", "type": t} for k, t in enumerate(drone_types)]},
+        "formations": [{"name": k, "points": np.round(v, 3).tolist(), **({"groups": groups[k]} if groups and k in
+                                                                           groups else {})}
+                       for k, v in formations.items()],
+        "timeline": {"start": next(iter(formations)), "transitions": transitions},
+    }
+
+
+def wall_crossing(n: int = 64) -> tuple[dict, dict]:
+    """``n`` drones (a multiple of 8) in a block 11 m before a wall fly to the mirrored block 11 m
+    behind it (labeled, 22 m); the wall has two full-height gaps 3 m wide at x = ±5 m."""
+    columns = n // 4
+    xs = np.linspace(-0.9 * (columns - 1), 0.9 * (columns - 1), columns)
+    near = np.array([(x, -11.0, z) for z in (2.0, 4.0, 6.0, 8.0) for x in xs])[:n]
+    far = near * [1, -1, 1]
+    wall = [((-30.0, -0.3, 0.0), (-6.5, 0.3, 12.0)), ((-3.5, -0.3, 0.0), (3.5, 0.3, 12.0)),
+            ((6.5, -0.3, 0.0), (30.0, 0.3, 12.0))]
+    site = {"flight_volume": {"lower": [-25.0, -16.0, 0.5], "upper": [25.0, 16.0, 11.0]},
+            "keep_out": [{"name": f"wall {k}", "lower": list(lo), "upper": list(hi)}
+                         for k, (lo, hi) in enumerate(wall)]}
+    return _scene(f"wall crossing ({n} drones)", site, [QUAD], ["quad"] * n, {"near": near, "far": far},
+                  [{"to": "far", "assignment": "labeled"}]), {}
+
+
+def tower_stations(n: int = 10) -> tuple[dict, dict]:
+    """``n`` drones stationed on the west half of a ring 7 m round a tower (radius 3 m, 24 m tall)
+    move to the mirrored stations on its east half (labeled)."""
+    angles = np.linspace(np.pi * 0.6, np.pi * 1.4, n)
+    heights = 3.0 + (np.arange(n) % 3) * 4.0
+    west = np.c_[7.0 * np.cos(angles), 7.0 * np.sin(angles), heights]
+    east = west * [-1, 1, 1]
+    tower = trimesh.creation.cylinder(radius=3.0, height=24.0, sections=32,
+                                      transform=trimesh.transformations.translation_matrix((0.0, 0.0, 12.0)))
+    site = {"flight_volume": {"lower": [-15.0, -15.0, 1.0], "upper": [15.0, 15.0, 16.0]},
+            "meshes": [{"name": "tower", "file": "tower.stl", "units": "m"}]}
+    return _scene(f"tower stations ({n} drones)", site, [QUAD], ["quad"] * n, {"west": west, "east": east},
+                  [{"to": "east", "assignment": "labeled"}]), {"tower.stl": tower}
+
+
+def line_swap(n: int = 5) -> tuple[dict, dict]:
+    """Two lines of ``n`` drones, 2 m apart within a line and 8 m apart, swap places head-on:
+    each drone flies to the drone facing it (labeled; straight lines would collide)."""
+    xs = (np.arange(n) - (n - 1) / 2) * 2.0
+    south = np.c_[xs, np.full(n, -4.0), np.full(n, 5.0)]
+    north = south * [1, -1, 1]
+    site = {"flight_volume": {"lower": [-20.0, -20.0, 0.5], "upper": [20.0, 20.0, 15.0]}}
+    return _scene(f"line swap ({n} + {n} drones)", site, [QUAD], ["quad"] * (2 * n),
+                  {"lines": np.r_[south, north], "swapped": np.r_[north, south]},
+                  [{"to": "swapped", "assignment": "labeled"}]), {}
+
+
+def floor_pads(heavy: int = 2, light: int = 6) -> tuple[dict, dict]:
+    """A mixed team on pads at the floor of the flight volume (z = 0) flies over a low canopy (a
+    keep-out box between the pads and the crown) to a crown 6 m up, then lands on the pads again
+    (grouped by type)."""
+    heavy_type = {"name": "camera", "radius_xy": 0.6, "radius_z": 1.0, "tracking_margin": 0.1,
+                  "max_speed_xy": 2.5, "max_speed_z": 1.5, "max_acceleration": 2.0}
+    light_type = {"name": "scout", "radius_xy": 0.25, "radius_z": 0.5, "tracking_margin": 0.05,
+                  "max_speed_xy": 4.0, "max_speed_z": 2.5, "max_acceleration": 3.0}
+    n = heavy + light
+    pads = np.array([(-9.0, (k - (n - 1) / 2) * 3.0, 0.0) for k in range(n)])
+    angles = np.linspace(0.0, 2 * np.pi, n, endpoint=False)
+    crown = np.c_[6.0 + 4.5 * np.cos(angles), 4.5 * np.sin(angles), np.where(np.arange(n) < heavy, 8.0, 6.0)]
+    kinds = ["camera"] * heavy + ["scout"] * light
+    site = {"flight_volume": {"lower": [-14.0, -16.0, 0.0], "upper": [14.0, 16.0, 12.0]},
+            "keep_out": [{"name": "canopy", "lower": [-4.0, -14.0, 0.0], "upper": [-2.0, 14.0, 3.5]}]}
+    return _scene(f"floor pads ({heavy} heavy + {light} light)", site, [heavy_type, light_type], kinds,
+                  {"pads": pads, "crown": crown, "landed": pads},
+                  [{"to": "crown", "assignment": "grouped"}, {"to": "landed", "assignment": "grouped"}],
+                  groups={"pads": kinds, "crown": kinds, "landed": kinds}), {}
+
+
+def write_scene(built: tuple[dict, dict], folder: Path, name: str) -> Path:
+    """Write a builder's scene (as ``name``.json) and its mesh files into ``folder``; the path."""
+    scene, files = built
+    folder.mkdir(parents=True, exist_ok=True)
+    for file, mesh in files.items():
+        mesh.export(folder / file)
+    path = folder / f"{name}.json"
+    path.write_text(json.dumps(scene, indent=1))
+    return path
