@@ -67,7 +67,7 @@ def _report(scene, base_dir: Path) -> list[str]:
               f"straight-line bound {t.lower_bound:.2f} s ({t.makespan_ratio:.2f}×){free}")
         if t.smoothing is not None:
             rounds = [f"{h.duration_s:.2f} s{' (re-timed)' if h.retimed else ''}"
-                      f"{'' if h.accepted else ' rejected'}"
+                      f"{'' if h.accepted else (' not kept: no shorter' if h.verified else ' rejected')}"
                       f"{f', kept {len(h.fell_back)} earlier' if h.fell_back else ''}"
                       f"{f', {len(h.second_solver)} by the second solver' if h.second_solver else ''}"
                       for h in t.smoothing.rounds if h.duration_s is not None]

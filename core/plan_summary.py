@@ -33,7 +33,7 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
                              "improve; stopped")
                 continue
             verdict = "accepted" if h.accepted else \
-                ("rejected (failed verification)" if not h.verified else "rejected (no shorter)")
+                ("rejected (failed verification)" if not h.verified else "not kept: no shorter, re-allocation done")
             if h.retimed:
                 verdict = "step durations re-allocated, " + verdict
             if h.fell_back:
