@@ -168,7 +168,7 @@ def cruise_timing(displacement: np.ndarray, limits: np.ndarray, degree: int) -> 
     length = np.linalg.norm(d, axis=1)
     moving = length > 0
     if not moving.any():
-        return shared_timing(d, limits, "min_snap" if degree >= MIN_SNAP.degree else "min_jerk", degree)
+        return shared_timing(d, limits, step_profile("cruise", degree).name, degree)
     with np.errstate(divide="ignore"):
         speed_room = np.minimum(limits[:, 0] / np.linalg.norm(d[:, :2], axis=1), limits[:, 1] / np.abs(d[:, 2]))
         accel_room = np.where(moving, limits[:, 2] / np.where(moving, length, 1.0), np.inf)

@@ -11,6 +11,7 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass, field
 
+import clarabel
 import numpy as np
 import osqp
 import scipy.sparse as sp
@@ -260,8 +261,6 @@ def _solve_with_clarabel(problem: DroneProblem, m: QPMatrices, t0: float, facts:
     """``m`` by Clarabel's interior-point method (Goulart & Chen, "Clarabel: an interior-point
     solver for conic programs with quadratic objectives", 2024) through its own API: equality rows
     in the zero cone, each finite side of the other rows in the non-negative cone (``A x + s = b``)."""
-    import clarabel
-
     equal = m.lower == m.upper
     upper = ~equal & np.isfinite(m.upper)
     lower = ~equal & np.isfinite(m.lower)

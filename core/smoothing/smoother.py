@@ -40,13 +40,11 @@ RETIMING_STEP = 0.3
 
 @dataclass(frozen=True)
 class SmoothingOptions:
-    """degree : Bézier degree; iterations : at most this many QP rounds; weights : objective;
-    allocate_steps : re-allocate the step durations in the rounds after the first."""
+    """degree : Bézier degree; iterations : at most this many QP rounds; weights : objective."""
 
     degree: int
     iterations: int
     weights: dict[str, float]
-    allocate_steps: bool = True
 
 
 @dataclass(frozen=True)
@@ -130,13 +128,16 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     moving = [i for i in range(len(positions)) if np.any(positions[i] != positions[i, :1])]
     # Names the fixed QP parts (which depend on the step durations) in every worker process.
     token = current_token = secrets.token_hex(8)
-    best_objective, best_duration, retiming = np.inf, np.inf, options.allocate_steps
+    best_objective, best_duration, retiming = np.inf, np.inf, True
     notes: list[str] = []
     for it in range(options.iterations):
         cancel.check()
         progress("smoothing", it / options.iterations, f"{where}: iteration {it + 1} of {options.iterations}")
         new_durations = it > 0 and retiming
         durations = allocate_steps(outcome.pieces, qp_durations, limits) if new_durations else qp_durations
+        # What stays when this round fails as a whole.
+        kept_on_failure = "the step durations of the round before" if new_durations \
+            else _kept(outcome.pieces is not None)
         t0 = time.perf_counter()
         # The solver's cost unit: the stop-and-go curve's cost at these durations, in every round
         # (scaling at each round's own warm start made round 2 hit the iteration cap).
@@ -149,16 +150,17 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
         seconds["qp"] += time.perf_counter() - t0
         failed = [s for s in solutions if not s.ok]
         if failed and (new_durations or len(failed) == len(solutions)):
-            notes.append(_failure_note(where, it, failed, spec.drone_ids,
-                                       "the step durations of the round before" if new_durations
-                                       else _kept(outcome.pieces is not None)))
+            notes.append(_failure_note(where, it, failed, spec.drone_ids, kept_on_failure))
             if new_durations:
                 retiming = False
                 continue
             break
         pieces = _mixed(previous, solutions)
-        objective = float(sum(references[i] for i in range(len(previous)))
-                          - sum(references[s.drone] - s.objective for s in solutions if s.ok))
+        costs = references.copy()  # drones that kept their earlier curve count with its cost
+        for s in solutions:
+            if s.ok:
+                costs[s.drone] = s.objective
+        objective = float(costs.sum())
         if not new_durations and objective >= best_objective * (1.0 - IMPROVEMENT_TOLERANCE):
             outcome.history.append(_figures(it, objective, None, None, solutions, accepted=False,
                                             ids=spec.drone_ids))
@@ -177,9 +179,7 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
         if not report.ok:
             v = report.violations[0]
             notes.append(f"{where}: smoothing iteration {it + 1} failed verification ({len(report.violations)} "
-                         f"problems, first: {v.describe()}); kept "
-                         + ("the step durations of the round before" if new_durations
-                            else _kept(outcome.pieces is not None)))
+                         f"problems, first: {v.describe()}); kept {kept_on_failure}")
             if new_durations:
                 retiming = False
                 continue
