@@ -1,4 +1,4 @@
-"""Planner settings: roadmap density, stretch, suboptimality, search time, smoothing on/off,
+"""Planner settings: roadmap density, stretch, search method, suboptimality, search time, smoothing on/off,
 rounds and objective, and worker processes (a machine setting, not stored in the scene)."""
 
 from __future__ import annotations
@@ -11,6 +11,10 @@ from core.objectives import OBJECTIVES
 
 from .document import Document
 
+#: ``planner.search`` values and how the form names them.
+SEARCH_CHOICES = (("auto", "by fleet size (ECBS up to 32 drones, else LaCAM*)"), ("ecbs", "ECBS (bounded cost)"),
+                  ("lacam", "LaCAM* (large fleets)"))
+
 
 class PlannerPanel(QWidget):
     """A form bound to ``scene.planner``; each change is one undo step."""
@@ -20,6 +24,9 @@ class PlannerPanel(QWidget):
         self.document = document
         self.samples = QSpinBox(minimum=50, maximum=200_000, singleStep=250)
         self.stretch = QDoubleSpinBox(minimum=1.0, maximum=10.0, singleStep=0.1, decimals=2)
+        self.search = QComboBox()
+        for value, text in SEARCH_CHOICES:
+            self.search.addItem(text, value)
         self.suboptimality = QDoubleSpinBox(minimum=1.0, maximum=10.0, singleStep=0.1, decimals=2)
         self.time_limit = QDoubleSpinBox(minimum=1.0, maximum=3600.0, singleStep=10.0, suffix=" s")
         self.smoothing = QCheckBox("smooth roadmap plans")
@@ -31,7 +38,8 @@ class PlannerPanel(QWidget):
         form = QFormLayout(self)
         form.addRow("roadmap samples", self.samples)
         form.addRow("spanner stretch", self.stretch)
-        form.addRow("suboptimality w", self.suboptimality)
+        form.addRow("search", self.search)
+        form.addRow("suboptimality w (ECBS)", self.suboptimality)
         form.addRow("search time limit", self.time_limit)
         form.addRow(self.smoothing)
         form.addRow("smoothing rounds", self.iterations)
@@ -45,6 +53,7 @@ class PlannerPanel(QWidget):
             w.editingFinished.connect(self._commit)
         self.smoothing.toggled.connect(self._commit)
         self.objective.activated.connect(self._commit)
+        self.search.activated.connect(self._commit)
         self.objective.lineEdit().editingFinished.connect(self._commit)
         self.workers.valueChanged.connect(lambda v: setattr(document, "workers", v or None))
         document.scene_changed.connect(self.refresh)
@@ -62,11 +71,15 @@ class PlannerPanel(QWidget):
         self.objective.blockSignals(True)
         self.objective.setCurrentText(s.objective)
         self.objective.blockSignals(False)
+        self.search.blockSignals(True)
+        self.search.setCurrentIndex(self.search.findData(s.search))
+        self.search.blockSignals(False)
 
     def _commit(self, *_args) -> None:
         scene = self.document.scene
         changes = {name: w.value() for name, w in self._fields.items()}
-        changes.update(smoothing=self.smoothing.isChecked(), objective=self.objective.currentText().strip())
+        changes.update(smoothing=self.smoothing.isChecked(), objective=self.objective.currentText().strip(),
+                       search=self.search.currentData())
         try:
             planner = replace(scene.planner, **changes)
         except ValueError as exc:  # pydantic's ValidationError is a ValueError

@@ -65,6 +65,10 @@ def _report(scene, base_dir: Path) -> list[str]:
             f", free-space bound {t.free_space_bound:.2f} s ({t.free_space_ratio:.2f}×)"
         print(f"  {t.problem.source} → {t.problem.target}: {t.method.name.lower()}, {t.duration:.2f} s; "
               f"straight-line bound {t.lower_bound:.2f} s ({t.makespan_ratio:.2f}×){free}")
+        if t.search is not None:
+            s = t.search
+            print(f"    search: {s.solver} ({s.reason}), {s.steps} steps, {s.seconds:.2f} s"
+                  + (f"; {s.refinement}" if s.refinement else ""))
         if t.smoothing is not None:
             rounds = [f"{h.duration_s:.2f} s{' (re-timed)' if h.retimed else ''}"
                       f"{'' if h.accepted else (' not kept: no shorter' if h.verified else ' rejected')}"

@@ -8,6 +8,10 @@ be written as, next to the scene. :func:`write_scene` writes both into a folder.
 * :func:`line_swap` — two lines of drones 8 m apart swap places head-on in open air.
 * :func:`floor_pads` — a mixed team takes off from pads on the floor of the flight volume, flies
   over a low canopy to a crown, and lands again (grouped by type).
+* :func:`window_facade` — an inspection crew passes a facade through its one window (a mesh),
+  with a quarter of a metre to spare above and below each drone.
+* :func:`crowd_wall` — a show crowd (unlabeled) crosses a wall through two 3 m gaps.
+* :func:`pillar_field` — a crowd crosses a field of pillars (one mesh file holding all of them).
 """
 
 from __future__ import annotations
@@ -97,6 +101,68 @@ def floor_pads(heavy: int = 2, light: int = 6) -> tuple[dict, dict]:
                   {"pads": pads, "crown": crown, "landed": pads},
                   [{"to": "crown", "assignment": "grouped"}, {"to": "landed", "assignment": "grouped"}],
                   groups={"pads": kinds, "crown": kinds, "landed": kinds}), {}
+
+
+def window_facade(n: int = 6, window: tuple[float, float] = (3.0, 1.3)) -> tuple[dict, dict]:
+    """``n`` drones with a 0.8 m tall, 0.78 m wide clearance (0.35 m and 0.34 m + 0.05 m tracking margin) cross a
+    facade (0.3 m thick mesh spanning the whole flight volume) through one window ``window`` =
+    (width, height) metres centred 3.65 m up; labeled, from 6 m before the facade to 6 m behind."""
+    width, height = window
+    small = {"name": "inspector", "radius_xy": 0.34, "radius_z": 0.35, "tracking_margin": 0.05,
+             "max_speed_xy": 2.0, "max_speed_z": 1.5, "max_acceleration": 2.0}
+    z0, z1 = 3.65 - height / 2, 3.65 + height / 2
+    x0, x1 = -width / 2, width / 2
+    gap = 1e-3  # panels 1 mm apart, so that each stays a closed box of its own (the mesh is watertight)
+    panels = [((-13.0, 0.0), (x0 - gap, 11.0)), ((x1 + gap, 0.0), (13.0, 11.0)), ((x0, 0.0), (x1, z0)),
+              ((x0, z1), (x1, 11.0))]
+    facade = trimesh.util.concatenate([
+        trimesh.creation.box(bounds=[(lo[0], -0.15, lo[1]), (hi[0], 0.15, hi[1])]) for lo, hi in panels])
+    xs = (np.arange(n) - (n - 1) / 2) * 1.6
+    near = np.c_[xs, np.full(n, -6.0) - (np.arange(n) % 2) * 1.5, 2.5 + (np.arange(n) % 3) * 1.2]
+    far = near * [1, -1, 1]
+    site = {"flight_volume": {"lower": [-12.0, -10.0, 0.5], "upper": [12.0, 10.0, 10.0]},
+            "meshes": [{"name": "facade", "file": "facade.stl", "units": "m"}]}
+    return _scene(f"window facade ({n} drones, window {width:g} × {height:g} m)", site, [small], ["inspector"] * n,
+                  {"before": near, "behind": far}, [{"to": "behind", "assignment": "labeled"}]), \
+        {"facade.stl": facade}
+
+
+def crowd_wall(n: int = 250) -> tuple[dict, dict]:
+    """``n`` drones in a block 12 m before a wall (25 columns 1.2 m apart, rows 1.5 m apart) fly to
+    the mirrored block behind it, unlabeled; the wall has two full-height gaps 3 m wide at x = ±6 m."""
+    columns = 25
+    rows = -(-n // columns)
+    xs = (np.arange(columns) - (columns - 1) / 2) * 1.2
+    near = np.array([(x, -12.0 - 1.0 * (r % 2), 1.5 + 1.5 * r) for r in range(rows) for x in xs])[:n]
+    far = near * [1, -1, 1]
+    wall = [((-40.0, -0.3, 0.0), (-7.5, 0.3, 20.0)), ((-4.5, -0.3, 0.0), (4.5, 0.3, 20.0)),
+            ((7.5, -0.3, 0.0), (40.0, 0.3, 20.0))]
+    site = {"flight_volume": {"lower": [-30.0, -20.0, 0.5], "upper": [30.0, 20.0, 1.5 * rows + 2.0]},
+            "keep_out": [{"name": f"wall {k}", "lower": list(lo), "upper": list(hi)}
+                         for k, (lo, hi) in enumerate(wall)]}
+    return _scene(f"crowd wall ({n} drones)", site, [QUAD], ["quad"] * n, {"near": near, "far": far},
+                  [{"to": "far", "assignment": "unlabeled"}]), {}
+
+
+def pillar_field(n: int = 1000, pillars: int = 4) -> tuple[dict, dict]:
+    """``n`` drones in a block south of a ``pillars`` × ``pillars`` grid of round pillars (radius
+    1 m, 8 m apart, 30 m tall, all in one mesh file) fly to the mirrored block north of it, unlabeled."""
+    columns, layers = 25, 8
+    rows = -(-n // (columns * layers))
+    xs = (np.arange(columns) - (columns - 1) / 2) * 1.5
+    block = np.array([(x, -20.0 - 1.5 * y, 2.0 + 1.5 * r) for r in range(rows) for y in range(layers)
+                      for x in xs])[:n]
+    far = block * [1, -1, 1]
+    centres = (np.arange(pillars) - (pillars - 1) / 2) * 8.0
+    field = trimesh.util.concatenate([
+        trimesh.creation.cylinder(radius=1.0, height=30.0, sections=24,
+                                  transform=trimesh.transformations.translation_matrix((x, y, 15.0)))
+        for x in centres for y in centres])
+    site = {"flight_volume": {"lower": [-25.0, -35.0, 1.0], "upper": [25.0, 35.0, 1.5 * rows + 3.5]},
+            "meshes": [{"name": "pillars", "file": "pillars.stl", "units": "m"}]}
+    return _scene(f"pillar field ({n} drones, {pillars * pillars} pillars)", site, [QUAD], ["quad"] * n,
+                  {"south": block, "north": far}, [{"to": "north", "assignment": "unlabeled"}]), \
+        {"pillars.stl": field}
 
 
 def write_scene(built: tuple[dict, dict], folder: Path, name: str) -> Path:

@@ -81,6 +81,9 @@ def _parser() -> argparse.ArgumentParser:
                     help="time law of straight-line flights (default cruise)")
     pl.add_argument("--export-unverified", action="store_true",
                     help="write the export even if verification fails (every file is then marked UNVERIFIED)")
+    pl.add_argument("--search", choices=["auto", "ecbs", "lacam"],
+                    help="multi-agent search on the roadmap (default: the scene's, usually auto: ECBS up to 32 "
+                         "drones, else LaCAM*)")
     pl.add_argument("--suboptimality", type=_finite, metavar="W",
                     help="roadmap search: sum of costs within W × optimal (W ≥ 1; default: the scene's, usually 2)")
     pl.add_argument("--roadmap-samples", type=int, metavar="N", help="free-space samples for the roadmap")
@@ -160,7 +163,8 @@ def _plan(args) -> int:
     if args.samples == "parquet" and importlib.util.find_spec("pyarrow") is None:
         raise ExportError("--samples parquet needs pyarrow: pip install 'skyloom[columnar]'")
     progress = _progress(args)
-    settings = with_settings(scene, degree=args.degree, profile=args.profile, suboptimality=args.suboptimality,
+    settings = with_settings(scene, degree=args.degree, profile=args.profile, search=args.search,
+                             suboptimality=args.suboptimality,
                              roadmap_samples=args.roadmap_samples, spanner_stretch=args.stretch,
                              search_time_limit=args.time_limit, smoothing_iterations=args.iterations,
                              objective=args.objective, smoothing=False if args.no_smoothing else None)

@@ -20,7 +20,6 @@ from .errors import PlanningError, SceneError
 from .executors import InlineExecutor, plan_executor
 from .limits import MAX_TIMELINE_S
 from .planning import (
-    EcbsSolver,
     MultiAgentSolver,
     PlanningContext,
     RoadmapFigures,
@@ -79,15 +78,16 @@ def plan(scene: Scene, *, settings: PlannerSettings | None = None, base_dir: str
     ``workers`` (see :func:`core.executors.plan_executor`): several roadmap transitions are planned
     as parallel tasks, a single one spreads its per-drone QPs instead. ``previous`` (an earlier
     plan) lends its context when the site, fleet and settings are unchanged, and its result for
-    every transition whose problem is unchanged. ``solver`` is the multi-agent search (default
-    ECBS at the settings' suboptimality). Raises :class:`PlanningError` (or :class:`SceneError`)
-    naming the transition and drones when no plan can be made; a plan that fails verification is
-    returned with ``report.ok`` False. ``source`` names the scene file in messages.
+    every transition whose problem is unchanged. ``solver`` is the multi-agent search (default:
+    :func:`~core.planning.solvers.choose_solver` per transition, by ``planner.search`` and fleet
+    size). Raises :class:`PlanningError` (or :class:`SceneError`) naming the transition and drones
+    when no plan can be made; a plan that fails verification is returned with ``report.ok`` False.
+    ``source`` names the scene file in messages.
     """
     settings = settings or scene.planner
     with plan_executor(executor, workers) as pool:
         return _plan(scene, settings, Path(base_dir or "."), use_cache, progress, cancel or CancelToken(), pool,
-                     source, previous, solver or EcbsSolver(settings.suboptimality))
+                     source, previous, solver)
 
 
 def _context(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, source: str,
@@ -101,7 +101,7 @@ def _context(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache:
 
 def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bool, progress: ProgressCallback,
           cancel: CancelToken, executor: Executor, source: str, previous: PlanResult | None,
-          solver: MultiAgentSolver) -> PlanResult:
+          solver: MultiAgentSolver | None) -> PlanResult:
     _check_profiles(scene, settings)
     context, reused_context = _context(scene, settings, base_dir, use_cache, source, previous)
     timings: dict[str, float] = {"straight lines": 0.0, "roadmap assignment": 0.0}
@@ -177,7 +177,7 @@ def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, 
     return results, jobs
 
 
-def _run_jobs(jobs, context: PlanningContext, solver: MultiAgentSolver, executor: Executor,
+def _run_jobs(jobs, context: PlanningContext, solver: MultiAgentSolver | None, executor: Executor,
               progress: ProgressCallback, cancel: CancelToken):
     """Yield ``(index, result)`` of every roadmap job. Several jobs on a real executor run as
     parallel tasks (each solving its per-drone QPs inline); otherwise one by one here, with the

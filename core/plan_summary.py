@@ -22,9 +22,14 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
         s, base = t.search, t.stop_and_go
         if s is None:
             continue
-        lines.append(f"  search: {s.nodes_expanded} nodes expanded ({s.low_level_expansions} low-level), "
-                     f"sum of costs {s.sum_of_costs} steps (lower bound {s.cost_lower_bound}, w = {s.w:g}), "
+        bound = "" if s.w is None else f", w = {s.w:g}"
+        effort = f"{s.nodes_expanded} nodes expanded ({s.low_level_expansions} low-level)" if s.w is not None else \
+            f"{s.nodes_expanded} visits, {s.nodes_generated} configurations"
+        lines.append(f"  search: {s.solver} ({s.reason}), {effort}, {s.seconds:.2f} s, {s.steps} steps, "
+                     f"sum of costs {s.sum_of_costs} steps (lower bound {s.cost_lower_bound}{bound}), "
                      f"{len(t.durations)} pieces")
+        if s.refinement:
+            lines.append(f"  search refinement: {s.refinement}")
         lines.append(f"  stop-and-go: {base.duration_s:.2f} s, peak acceleration {base.peak_acceleration:.2f} "
                      f"m/s², ∫|snap|² {base.snap_integral:.4g} m²/s⁷")
         for h in t.smoothing.rounds if t.smoothing else ():

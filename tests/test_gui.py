@@ -141,11 +141,15 @@ def test_timeline_fleet_and_planner_edits_are_undoable_and_saved(qtbot, document
     planner.objective.setCurrentText("bogus")
     planner.objective.lineEdit().editingFinished.emit()
     assert document.scene.planner.objective == "snap"  # refused with a message, nothing lost
+    planner.search.setCurrentIndex(planner.search.findData("lacam"))
+    planner.search.activated.emit(planner.search.currentIndex())
+    assert document.scene.planner.search == "lacam"
     document.save(tmp_path / "edited.json")
     again = load_scene(tmp_path / "edited.json")
     assert again.planner.smoothing_iterations == 5 and again.timeline.transitions[0].hold == 4.0
+    assert again.planner.search == "lacam"
     assert str((tmp_path / "edited.json").resolve()) in document.recent_files()
-    for _ in range(3):
+    for _ in range(4):
         document.undo_stack.undo()
     assert document.scene == load_scene(SAMPLES / "lab_eight.json")
 

@@ -29,9 +29,10 @@ def transition_record(t: TransitionResult) -> dict:
     if t.search is not None:
         s = t.search
         record["search"] = {
-            "solver": s.solver, "search_nodes": s.nodes_expanded, "search_generated": s.nodes_generated,
-            "low_level_expansions": s.low_level_expansions, "sum_of_costs": s.sum_of_costs,
-            "cost_lower_bound": s.cost_lower_bound, "w": s.w, "search_s": s.seconds,
+            "solver": s.solver, "solver_reason": s.reason, "search_nodes": s.nodes_expanded,
+            "search_generated": s.nodes_generated, "low_level_expansions": s.low_level_expansions,
+            "steps": s.steps, "sum_of_costs": s.sum_of_costs, "cost_lower_bound": s.cost_lower_bound, "w": s.w,
+            "search_s": s.seconds, "refinement": s.refinement,
             "stop_and_go": asdict(t.stop_and_go), "smoothed": t.method.name == "SMOOTHED",
         }
         if t.smoothing is not None:

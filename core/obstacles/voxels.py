@@ -23,15 +23,17 @@ from ..scene.checks import box_distance_ratio
 
 
 class MeshDistanceGrid:
-    """Distance lower bounds to one mesh. ``vertices`` ``(V, 3)`` and ``faces`` ``(F, 3)`` are already
-    in scaled coordinates; ``pitch`` and ``pad`` in the same units; ``solid`` fills the inside by ray
+    """Distance lower bounds to one mesh (the triangles ``faces`` ``(F, 3)`` of ``vertices``
+    ``(V, 3)``; vertices no face uses are ignored), already in scaled coordinates; ``pitch`` and
+    ``pad`` in the same units; ``solid`` fills the inside by ray
     parity (only sound for watertight meshes)."""
 
     def __init__(self, vertices: np.ndarray, faces: np.ndarray, pitch: float, pad: float, solid: bool):
         self.pitch = float(pitch)
         self.sample_spacing = self.pitch / 2
         self.error = np.sqrt(3.0) * self.pitch + self.sample_spacing / np.sqrt(3.0)
-        self.bounds = np.array([vertices.min(axis=0), vertices.max(axis=0)])
+        used = vertices[np.unique(faces)]
+        self.bounds = np.array([used.min(axis=0), used.max(axis=0)])
         self.origin = self.bounds[0] - pad
         self.shape = tuple(np.ceil((self.bounds[1] - self.bounds[0] + 2 * pad) / self.pitch).astype(int) + 1)
         triangles = vertices[faces]

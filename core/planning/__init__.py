@@ -12,11 +12,12 @@ from .results import (
     TransitionResult,
 )
 from .roadmap_path import plan_on_roadmap, roadmap_assignment
-from .solvers import EcbsSolver, MultiAgentSolver, SearchOutcome
+from .solvers import EcbsSolver, LacamSolver, MultiAgentSolver, SearchOutcome, choose_solver
 from .straight import StraightAttempt, plan_straight
 
 __all__ = [
-    "AttachedRoadmap", "EcbsSolver", "MultiAgentSolver", "PlanningContext", "RoadmapFigures", "SearchFigures",
-    "SearchOutcome", "SmoothingFigures", "StopAndGoFigures", "StraightAttempt", "TransitionMethod",
-    "TransitionProblem", "TransitionResult", "plan_on_roadmap", "plan_straight", "roadmap_assignment",
+    "AttachedRoadmap", "EcbsSolver", "LacamSolver", "MultiAgentSolver", "PlanningContext", "RoadmapFigures",
+    "SearchFigures", "SearchOutcome", "SmoothingFigures", "StopAndGoFigures", "StraightAttempt",
+    "TransitionMethod", "TransitionProblem", "TransitionResult", "choose_solver", "plan_on_roadmap",
+    "plan_straight", "roadmap_assignment",
 ]

@@ -28,6 +28,12 @@ from ..scene.model import PlannerSettings, Scene
 from ..verify import VerificationSpec, spec_from_scene
 from .results import RoadmapFigures
 
+#: Uniform roadmap samples drawn per drone at least (``planner.roadmap_samples`` is the minimum):
+#: a sparse roadmap has too few disjoint ways through a passage for a crowd. Measured on 250
+#: drones crossing a two-gap wall (DEVELOPERS.md, "Roadmap density"): 1 500 samples 99 steps,
+#: 3 000 63, 5 000 54.
+SAMPLES_PER_DRONE = 20
+
 
 @dataclass(frozen=True, eq=False)
 class AttachedRoadmap:
@@ -102,7 +108,8 @@ class PlanningContext:
         if self._attached is not None and self._attached[0] == key:
             return self._attached[1]
         s, field, pair_envelope = self.settings, self.field, self.clearance.pair_envelope
-        rs = RoadmapSettings(s.roadmap_samples, s.roadmap_neighbours, s.spanner_stretch, s.roadmap_seed)
+        samples = max(s.roadmap_samples, SAMPLES_PER_DRONE * len(self.scene.fleet.ids))
+        rs = RoadmapSettings(samples, s.roadmap_neighbours, s.spanner_stretch, s.roadmap_seed)
         t0 = time.perf_counter()
         base, cached, cache_warnings = cached_roadmap(
             roadmap_key(field, pair_envelope, rs),
@@ -112,7 +119,7 @@ class PlanningContext:
         t0 = time.perf_counter()
         points = np.concatenate([f.positions for f in formations])
         self._check_points_in_field(points)
-        full, index = attach_points(base, points, field, pair_envelope, s.roadmap_neighbours)
+        full, index = attach_points(base, points, field, pair_envelope, s.roadmap_neighbours, seed=s.roadmap_seed)
         self.seconds["roadmap attach"] = time.perf_counter() - t0
         splits = np.cumsum([len(f.positions) for f in formations])[:-1]
         attached = AttachedRoadmap(full, dict(zip((f.name for f in formations), np.split(index, splits), strict=True)),

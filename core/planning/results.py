@@ -30,16 +30,21 @@ class TransitionMethod(Enum):
 
 @dataclass(frozen=True)
 class SearchFigures:
-    """The multi-agent search on the roadmap: which ``solver`` ran and what it cost."""
+    """The multi-agent search on the roadmap: which ``solver`` ran, why (``reason``), and what it
+    cost. ``w``: the sum-of-costs bound factor (None for a solver without one); ``steps``: the
+    plan's makespan in steps; ``refinement``: what an anytime solver did after its first plan."""
 
     solver: str
+    reason: str
     nodes_expanded: int
     nodes_generated: int
     low_level_expansions: int
     sum_of_costs: int
     cost_lower_bound: int
-    w: float
+    w: float | None
+    steps: int
     seconds: float
+    refinement: str | None = None
 
 
 @dataclass(frozen=True)
@@ -107,8 +112,8 @@ class TransitionResult:
         """The method as reports word it (with the search's suboptimality factor)."""
         if self.search is None:
             return self.method.value
-        return self.method.value.replace("roadmap search", f"roadmap search ({self.search.solver}, "
-                                         f"w = {self.search.w:g})")
+        bound = "" if self.search.w is None else f", w = {self.search.w:g}"
+        return self.method.value.replace("roadmap search", f"roadmap search ({self.search.solver}{bound})")
 
 
 @dataclass(frozen=True)

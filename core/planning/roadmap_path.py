@@ -25,7 +25,7 @@ from ..verify.discrete import check_discrete_plan
 from .context import PlanningContext
 from .problem import TransitionProblem
 from .results import SmoothingFigures, StopAndGoFigures, TransitionMethod, TransitionResult
-from .solvers import MultiAgentSolver
+from .solvers import MultiAgentSolver, choose_solver
 from .timing import requested_duration
 
 
@@ -61,16 +61,18 @@ def roadmap_assignment(problem: TransitionProblem, context: PlanningContext,
 
 
 def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bound: float, context: PlanningContext,
-                    solver: MultiAgentSolver, executor: Executor | None = None, *,
+                    solver: MultiAgentSolver | None, executor: Executor | None = None, *,
                     progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> TransitionResult:
     """Plan ``problem`` on the roadmap with goals fixed by ``assignment``: search, discrete check,
     stop-and-go pieces, then smoothing (per-drone QPs on ``executor``, inline when None) unless
-    the settings turn it off. ``lower_bound`` (s) is the straight-line bound reported beside it."""
+    the settings turn it off. ``solver`` None: :func:`~.solvers.choose_solver`. ``lower_bound`` (s)
+    is the straight-line bound reported beside it."""
     attached = context.roadmap(progress, cancel)
     roadmap, vertex_of = attached.roadmap, attached.vertex_of
     starts = vertex_of[problem.source][problem.occupied]
     goals = vertex_of[problem.target][assignment.goal_of]
     ids, settings = context.scene.fleet.ids, context.settings
+    solver = solver or choose_solver(settings, len(starts))
     found = solver.solve(roadmap, starts, goals, ids, time_limit=settings.search_time_limit, progress=progress,
                          cancel=cancel)
     positions = _step_positions(roadmap, found.paths)

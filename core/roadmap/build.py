@@ -1,5 +1,6 @@
-"""Roadmap construction: low-discrepancy samples of free space, nearest-neighbour edges that keep
-clear of obstacles, a greedy spanner, then formation points attached as extra vertices."""
+"""Roadmap construction: low-discrepancy samples of free space plus samples near obstacles and in
+narrow passages, nearest-neighbour edges that keep clear of obstacles, a greedy spanner, then
+formation points attached as extra vertices (with free samples around them)."""
 
 from __future__ import annotations
 
@@ -19,13 +20,29 @@ from .spanner import greedy_spanner
 
 @dataclass(frozen=True)
 class RoadmapSettings:
-    """samples : free-space samples drawn (before rejection); neighbours : edges tried per vertex;
-    stretch : spanner stretch factor ≥ 1; seed : sampler seed."""
+    """samples : uniform free-space samples drawn (before rejection); neighbours : edges tried per
+    vertex; stretch : spanner stretch factor ≥ 1; seed : sampler seed; passage_seeds : points
+    drawn to seed the passage samplers, as a multiple of ``samples`` (0: uniform sampling only)."""
 
     samples: int = 1500
     neighbours: int = 12
     stretch: float = 1.5
     seed: int = 0
+    passage_seeds: float = 4.0
+
+
+#: Standard deviations (scaled units: clearance radii) of the Gaussian sampler's partner point and
+#: of the bridge test's second end.
+GAUSSIAN_SIGMA = 1.0
+BRIDGE_SIGMA = 2.5
+#: Partners tried per seed point in collision by the Gaussian sampler and by the bridge test (its
+#: successes are rare and its points the valuable ones).
+GAUSSIAN_TRIES = 2
+BRIDGE_TRIES = 16
+#: Free points drawn around each bridge-test point (σ = :data:`CLOUD_SIGMA` clearance radii), so
+#: that a passage point has neighbours to join it to the space on either side.
+PASSAGE_CLOUD = 8
+CLOUD_SIGMA = 1.5
 
 
 def sample_free(field: ClearanceField, count: int, seed: int) -> np.ndarray:
@@ -34,6 +51,50 @@ def sample_free(field: ClearanceField, count: int, seed: int) -> np.ndarray:
     lo, hi = field.flight_volume
     points = qmc.scale(qmc.Halton(d=3, scramble=True, seed=seed).random(count), lo, hi)
     return points[field.margins(points) >= 0.0]
+
+
+def sample_passages(field: ClearanceField, seeds: int, seed: int) -> np.ndarray:
+    """Free points near obstacles and in narrow passages, from ``seeds`` uniform points (a second
+    scrambled Halton sequence) of which those in collision seed two samplers:
+
+    * Gaussian sampling (Boor, Overmars & van der Stappen, "The Gaussian sampling strategy for
+      probabilistic roadmap planners", ICRA 1999): a partner at a normal offset (σ =
+      :data:`GAUSSIAN_SIGMA`) that is free is kept — a free point near an obstacle's surface;
+    * the bridge test (Hsu, Jiang, Reif & Sun, "The bridge test for sampling narrow passages with
+      probabilistic roadmap planners", ICRA 2003): a partner (σ = :data:`BRIDGE_SIGMA`) also in
+      collision whose midpoint is free gives that midpoint — a point between two obstacles —
+      and a small cloud of free points around it (:data:`PASSAGE_CLOUD`).
+
+    Offsets are drawn in coordinates scaled by the clearance ellipsoid, so they follow the drone's shape.
+    """
+    if seeds <= 0 or not (field.grids or field.keep_out):
+        return np.empty((0, 3))
+    lo, hi = field.flight_volume
+    points = qmc.scale(qmc.Halton(d=3, scramble=True, seed=seed + 1).random(seeds), lo, hi)
+    blocked = points[_obstacle_margins(field, points) < 0.0]
+    if not len(blocked):
+        return np.empty((0, 3))
+    rng = np.random.default_rng(seed)
+    gaussian = np.repeat(blocked, GAUSSIAN_TRIES, axis=0)
+    gaussian = gaussian + rng.normal(scale=GAUSSIAN_SIGMA, size=gaussian.shape) * field.semi_axes
+    first = np.repeat(blocked, BRIDGE_TRIES, axis=0)
+    other = first + rng.normal(scale=BRIDGE_SIGMA, size=first.shape) * field.semi_axes
+    inside = np.all((other >= lo) & (other <= hi), axis=1)
+    other_blocked = ~inside | (_obstacle_margins(field, other) < 0.0)
+    middle = 0.5 * (first + other)[other_blocked]
+    middle = middle[field.margins(middle) >= 0.0]
+    cloud = np.repeat(middle, PASSAGE_CLOUD, axis=0)
+    cloud = cloud + rng.normal(scale=CLOUD_SIGMA, size=cloud.shape) * field.semi_axes
+    candidates = np.concatenate([gaussian, cloud])
+    inside = np.all((candidates >= lo) & (candidates <= hi), axis=1)
+    candidates = candidates[inside]
+    return np.concatenate([middle, candidates[field.margins(candidates) >= 0.0]])
+
+
+def _obstacle_margins(field: ClearanceField, points: np.ndarray) -> np.ndarray:
+    """Grid-only margins ``(M,)`` to keep-out boxes and meshes (a quick "in collision?" for seeds;
+    cheap, and pessimistic only near surfaces, where either answer is a useful seed)."""
+    return field.margin_parts(points, exact=False)[1:].min(axis=0)
 
 
 def nearest_edges(points: np.ndarray, k: int, among: np.ndarray | None = None) -> np.ndarray:
@@ -64,7 +125,8 @@ def build_roadmap(field: ClearanceField, pair_envelope: np.ndarray, settings: Ro
     """Sampled sparse roadmap with its conflicts; ``pair_envelope`` ``(3,)``: pair clearance half-axes (m)."""
     cancel = cancel or CancelToken()
     progress("roadmap", 0.0, "sampling free space")
-    vertices = sample_free(field, settings.samples, settings.seed)
+    vertices = np.concatenate([sample_free(field, settings.samples, settings.seed),
+                               sample_passages(field, int(settings.passage_seeds * settings.samples), settings.seed)])
     if len(vertices) < 2:
         raise PlanningError("roadmap: fewer than two free samples in the flight volume; "
                             "the obstacles (with clearance) fill it")
@@ -82,13 +144,40 @@ def build_roadmap(field: ClearanceField, pair_envelope: np.ndarray, settings: Ro
     return roadmap
 
 
+#: Extra free samples drawn around each formation point when it is attached (see :func:`attach_points`).
+APPROACH_SAMPLES = 4
+
+
+def approach_samples(field: ClearanceField, points: np.ndarray, pair_envelope: np.ndarray, per_point: int,
+                     seed: int) -> np.ndarray:
+    """Free points ``(≤ P·per_point, 3)`` scattered around formation ``points`` ``(P, 3)``: Gaussian
+    offsets with one pair clearance ``pair_envelope`` ``(3,)`` m as standard deviation per axis,
+    kept where the clearance margin is ≥ 0 and not inside another point's pair clearance.
+
+    Uniform samples are sparse where a formation packs many drones into a small space; without
+    ways in and out between its points, drones must pass through occupied points to reach theirs.
+    """
+    if per_point <= 0 or not len(points):
+        return np.empty((0, 3))
+    rng = np.random.default_rng(seed)
+    extra = np.repeat(points, per_point, axis=0) + rng.normal(size=(len(points) * per_point, 3)) * pair_envelope
+    lo, hi = field.flight_volume
+    extra = extra[np.all((extra >= lo) & (extra <= hi), axis=1)]
+    distance, _ = cKDTree(points / pair_envelope).query(extra / pair_envelope)
+    extra = extra[distance >= 1.0]
+    return extra[field.margins(extra) >= 0.0]
+
+
 def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, pair_envelope: np.ndarray,
-                  neighbours: int) -> tuple[Roadmap, np.ndarray]:
+                  neighbours: int, approach: int = APPROACH_SAMPLES, seed: int = 0) -> tuple[Roadmap, np.ndarray]:
     """``roadmap`` with ``points`` ``(P, 3)`` added as vertices (each joined to its nearest
-    neighbours by clear edges, conflicts extended) and the vertex index of each point ``(P,)``."""
+    neighbours by clear edges, conflicts extended) and the vertex index of each point ``(P,)``.
+    ``approach`` free samples per point are added around them first (:func:`approach_samples`)."""
     n_old, e_old = roadmap.n_vertices, len(roadmap.edges)
-    vertices = np.concatenate([roadmap.vertices, points])
+    extra = approach_samples(field, points, pair_envelope, approach, seed)
+    vertices = np.concatenate([roadmap.vertices, points, extra])
     index = np.arange(n_old, n_old + len(points))
-    edges = np.concatenate([roadmap.edges, clear_neighbour_edges(field, vertices, neighbours, among=index)])
-    added = annotate_added(vertices, edges, n_old, e_old, pair_envelope)
-    return Roadmap(vertices, edges, roadmap.conflicts.merged(added)), index
+    added = np.arange(n_old, len(vertices))
+    edges = np.concatenate([roadmap.edges, clear_neighbour_edges(field, vertices, neighbours, among=added)])
+    conflicts = annotate_added(vertices, edges, n_old, e_old, pair_envelope)
+    return Roadmap(vertices, edges, roadmap.conflicts.merged(conflicts)), index

@@ -27,7 +27,7 @@ from .build import RoadmapSettings
 from .conflicts import ConflictPairs
 from .graph import Roadmap
 
-CACHE_FORMAT = "skyloom-roadmap-cache-2"
+CACHE_FORMAT = "skyloom-roadmap-cache-3"
 _ARRAYS = ("vertices", "edges", "vv", "ve", "ee")
 
 

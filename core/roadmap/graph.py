@@ -61,6 +61,15 @@ class Roadmap:
         both = np.concatenate([rows, cols, np.arange(a)]), np.concatenate([cols, rows, np.arange(a)])
         return sparse.coo_matrix((np.ones(len(both[0]), dtype=bool), both), shape=(a, a)).tocsr()
 
+    def conflict_counts(self, actions: np.ndarray) -> np.ndarray:
+        """``(A,)`` int32: for every action, how many of ``actions`` ``(M,)`` (repeats count) it conflicts with."""
+        table = self.action_conflicts
+        start, stop = table.indptr[actions], table.indptr[actions + 1]
+        lengths = stop - start
+        offsets = np.repeat(start - np.cumsum(np.r_[0, lengths[:-1]]), lengths)
+        cols = table.indices[np.arange(lengths.sum()) + offsets]
+        return np.bincount(cols, minlength=self.n_actions).astype(np.int32)
+
     @cached_property
     def conflict_keys(self) -> np.ndarray:
         """Sorted ``a · A + b`` for every conflicting ordered action pair (fast membership tests)."""

@@ -234,6 +234,9 @@ def _objective_text(text: str) -> str:
     return text
 
 
+SearchName = Literal["auto", "ecbs", "lacam"]
+
+
 @dataclass(config=_STRICT)
 class PlannerSettings:
     """Planner options stored with the scene.
@@ -255,7 +258,10 @@ class PlannerSettings:
     roadmap_seed: _integer(ge=0, le=2**32 - 1) = 0
     #: Voxel pitch of the planner's obstacle field, in clearance radii (error bound ≈ 2 × pitch).
     obstacle_pitch: _finite(ge=0.05, le=1.0) = 0.2
-    #: Multi-agent search: suboptimality factor w ≥ 1 (sum of costs ≤ w × optimal), time limit (s).
+    #: Multi-agent search: ``auto`` (ECBS for small teams, LaCAM* for large ones, see
+    #: :func:`core.planning.solvers.choose_solver`), ``ecbs`` or ``lacam``; ECBS's suboptimality
+    #: factor w ≥ 1 (sum of costs ≤ w × optimal); time limit (s).
+    search: SearchName = "auto"
     suboptimality: _finite(ge=1.0, le=10.0) = 2.0
     search_time_limit: _finite(gt=0.0, le=3600.0) = 60.0
     #: Smoothing of roadmap plans: on/off, most QP rounds, objective (a name or term weights, see

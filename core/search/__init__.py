@@ -1,5 +1,7 @@
-"""Multi-agent search on a roadmap: bounded-suboptimal conflict-based search (ECBS)."""
+"""Multi-agent search on a roadmap: bounded-suboptimal conflict-based search (ECBS) for small teams,
+LaCAM* with a PIBT step generator for large ones."""
 
 from .ecbs import SearchFailed, SearchResult, UnresolvedConflict, ecbs
+from .lacam import LacamFailed, LacamResult, lacam
 
-__all__ = ["SearchFailed", "SearchResult", "UnresolvedConflict", "ecbs"]
+__all__ = ["LacamFailed", "LacamResult", "SearchFailed", "SearchResult", "UnresolvedConflict", "ecbs", "lacam"]

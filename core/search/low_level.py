@@ -35,23 +35,17 @@ class ConflictCounter:
     """
 
     def __init__(self, roadmap: Roadmap, others: np.ndarray):
-        self.table = roadmap.action_conflicts
-        self.n_actions = roadmap.n_actions
+        self.roadmap = roadmap
         self.others = others
         self._by_step: dict[int, np.ndarray] = {}
 
     def at(self, t: int) -> np.ndarray:
         if self.others.shape[0] == 0:
-            return np.zeros(self.n_actions, dtype=np.int32)
+            return np.zeros(self.roadmap.n_actions, dtype=np.int32)
         t = min(t, self.others.shape[1] - 1)
         counts = self._by_step.get(t)
         if counts is None:
-            rows = self.others[:, t]
-            start, stop = self.table.indptr[rows], self.table.indptr[rows + 1]
-            lengths = stop - start
-            offsets = np.repeat(start - np.cumsum(np.r_[0, lengths[:-1]]), lengths)
-            cols = self.table.indices[np.arange(lengths.sum()) + offsets]
-            counts = self._by_step[t] = np.bincount(cols, minlength=self.n_actions).astype(np.int32)
+            counts = self._by_step[t] = self.roadmap.conflict_counts(self.others[:, t])
         return counts
 
 
