@@ -267,3 +267,23 @@ def test_single_drone_replanning_removes_needless_waits_and_stays_conflict_free(
         assert better.shape[0] - 1 >= _optimal_makespan(roadmap, starts.tolist(), goals.tolist())
         gained += int(_arrivals(slow).sum() - _arrivals(better).sum())
     assert gained > 0
+
+
+def test_auto_search_picks_by_fleet_size_and_hands_over_when_ecbs_runs_out():
+    from core.planning.solvers import ECBS_MAX_DRONES, EcbsThenLacam, LacamSolver, choose_solver
+    from core.scene.model import PlannerSettings
+
+    assert isinstance(choose_solver(PlannerSettings(), ECBS_MAX_DRONES), EcbsThenLacam)
+    large = choose_solver(PlannerSettings(), ECBS_MAX_DRONES + 1)
+    assert isinstance(large, LacamSolver) and f"{ECBS_MAX_DRONES + 1} drones" in large.reason
+    assert choose_solver(PlannerSettings(search="ecbs"), 500).name == "ECBS"
+    handed_over = 0
+    for roadmap, starts, goals in _instances(5, 8):
+        ids = tuple(f"d{k}" for k in range(len(starts)))
+        outcome = EcbsThenLacam(1.0, "auto: 3 drones").solve(roadmap, starts, goals, ids, time_limit=1e-4)
+        steps = max(len(p) for p in outcome.paths) - 1
+        assert _discrete_ok(roadmap, outcome.paths, steps)
+        if outcome.figures.solver == "LaCAM*":
+            handed_over += 1
+            assert "ECBS gave up" in outcome.figures.reason and outcome.figures.w is None
+    assert handed_over > 0

@@ -67,9 +67,8 @@ class DroneProblem:
     #: ``(transition token, drone)``: the parts of the QP that stay the same within a transition are
     #: built once per worker process under this key (None: always built afresh).
     fixed_key: tuple[str, int] | None = None
-    #: Solvers tried in turn until one succeeds ("OSQP", "Clarabel"). OSQP first where ``initial`` is
-    #: an earlier round's solution (it then converges in few iterations); Clarabel first from a cold
-    #: start (3.4× faster than OSQP on the courtyard's first round, every QP solved).
+    #: Solvers tried in turn until one succeeds ("OSQP", "Clarabel"); the smoother puts Clarabel
+    #: first (:data:`core.smoothing.smoother.SOLVER_ORDER`).
     solvers: tuple[str, ...] = ("OSQP", "Clarabel")
 
 
