@@ -12,8 +12,7 @@ from core.objectives import OBJECTIVES
 from .document import Document
 
 #: ``planner.search`` values and how the form names them.
-SEARCH_CHOICES = (("auto", "by fleet size (ECBS up to 32 drones, else LaCAM*)"), ("ecbs", "ECBS (bounded cost)"),
-                  ("lacam", "LaCAM* (large fleets)"))
+SEARCH_CHOICES = (("auto", "by fleet size"), ("ecbs", "ECBS"), ("lacam", "LaCAM*"))
 
 
 class PlannerPanel(QWidget):
@@ -27,6 +26,9 @@ class PlannerPanel(QWidget):
         self.search = QComboBox()
         for value, text in SEARCH_CHOICES:
             self.search.addItem(text, value)
+        self.search.setToolTip("By fleet size: ECBS (sum of costs within w of the optimum) up to 32 drones, with "
+                               "LaCAM* taking over if ECBS runs out of time; LaCAM* (complete, fast on hundreds of "
+                               "drones) for larger teams.")
         self.suboptimality = QDoubleSpinBox(minimum=1.0, maximum=10.0, singleStep=0.1, decimals=2)
         self.time_limit = QDoubleSpinBox(minimum=1.0, maximum=3600.0, singleStep=10.0, suffix=" s")
         self.smoothing = QCheckBox("smooth roadmap plans")
