@@ -50,16 +50,14 @@ class ClearanceField:
         self.keep_out = [np.asarray(b, dtype=float) for b in keep_out]
         self.mesh_names = tuple(m.name for m in meshes)
         self.mesh_digests = tuple(_digest(m) for m in meshes)
-        self.grids: list[MeshDistanceGrid] = []
-        grid_mesh = []
         pad = 2.0 + 2 * pitch
-        for k, m in enumerate(meshes):
+        #: Per mesh, the grids of its groups of parts (see the module docstring).
+        self.mesh_grids: list[list[MeshDistanceGrid]] = []
+        for m in meshes:
             vertices = m.mesh.vertices / self.semi_axes
-            for faces in _grid_groups(vertices, m.mesh.faces, m.mesh.face_adjacency, pad):
-                self.grids.append(MeshDistanceGrid(vertices, faces, pitch, pad=pad, solid=m.watertight))
-                grid_mesh.append(k)
-        #: ``(G,)`` the mesh each grid belongs to.
-        self.grid_mesh = np.asarray(grid_mesh, dtype=np.int64)
+            self.mesh_grids.append([MeshDistanceGrid(vertices, faces, pitch, pad=pad, solid=m.watertight)
+                                    for faces in _grid_groups(vertices, m.mesh.faces, m.mesh.face_adjacency, pad)])
+        self.grids = [g for grids in self.mesh_grids for g in grids]
         self._scaled_meshes = [(m.mesh.vertices / self.semi_axes, m.mesh.faces) for m in meshes]
         self._exact: dict[int, trimesh.proximity.ProximityQuery] = {}
         self.error_bound = max((g.error for g in self.grids), default=0.0)
@@ -81,14 +79,13 @@ class ClearanceField:
         lo, hi = self.flight_volume / self.semi_axes
         parts = [np.minimum(scaled - lo, hi - scaled).min(axis=1)]
         parts += [box_distance_ratio(points, box, self.semi_axes) - 1.0 for box in self.keep_out]
-        for k in range(len(self.mesh_names)):
-            grids = [g for g, owner in zip(self.grids, self.grid_mesh, strict=True) if owner == k]
+        for k, grids in enumerate(self.mesh_grids):
             bound = np.min([g.lower_bound(scaled) for g in grids], axis=0) - 1.0 if grids else \
                 np.full(len(points), np.inf)
-            if exact:
+            if exact and grids:
                 # Undecided: the bound is < 0 but within the grids' two-sided error of 0, and > −1,
                 # so the point is outside the mesh (inside a watertight mesh the bound is ≤ −1).
-                error = max(g.error for g in grids) if grids else 0.0
+                error = max(g.error for g in grids)
                 undecided = np.nonzero((bound < 0) & (bound > max(-1.0, -2.0 * error)))[0]
                 if len(undecided):
                     bound = bound.copy()

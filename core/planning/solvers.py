@@ -58,12 +58,17 @@ class EcbsSolver:
               time_limit: float, progress: ProgressCallback = no_progress,
               cancel: CancelToken | None = None) -> SearchOutcome:
         try:
-            result = ecbs(roadmap, starts, goals, w=self.w, time_limit=time_limit, progress=progress, cancel=cancel)
+            return self.search(roadmap, starts, goals, time_limit=time_limit, progress=progress, cancel=cancel)
         except SearchFailed as e:
             raise PlanningError(f"{e}; unresolved: " + _describe_conflicts(e.conflicts, roadmap, drone_ids)
                                 + ". Try a larger suboptimality factor, a longer search time limit, more roadmap "
                                 "samples, fewer drones through the narrowest passage, or planner.search: lacam."
                                 ) from None
+
+    def search(self, roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit: float,
+               progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> SearchOutcome:
+        """:meth:`solve` without the message: raises :class:`~core.search.SearchFailed`."""
+        result = ecbs(roadmap, starts, goals, w=self.w, time_limit=time_limit, progress=progress, cancel=cancel)
         return SearchOutcome(result.paths, SearchFigures(
             solver=self.name, reason=self.reason, nodes_expanded=result.nodes_expanded,
             nodes_generated=result.nodes_generated, low_level_expansions=result.low_level_expansions,
@@ -116,10 +121,10 @@ class EcbsThenLacam:
               cancel: CancelToken | None = None) -> SearchOutcome:
         first = ECBS_SHARE * time_limit
         try:
-            return EcbsSolver(self.w, self.reason).solve(roadmap, starts, goals, drone_ids, time_limit=first,
-                                                         progress=progress, cancel=cancel)
-        except PlanningError as e:
-            why = f"{self.reason}; ECBS gave up after {first:g} s ({str(e).split(';')[0]}), so LaCAM* planned"
+            return EcbsSolver(self.w, self.reason).search(roadmap, starts, goals, time_limit=first,
+                                                          progress=progress, cancel=cancel)
+        except SearchFailed as e:
+            why = f"{self.reason}; ECBS gave up after {first:g} s ({e}), so LaCAM* planned"
         return LacamSolver(why, seed=self.seed).solve(roadmap, starts, goals, drone_ids,
                                                       time_limit=time_limit - first, progress=progress,
                                                       cancel=cancel)

@@ -85,9 +85,7 @@ def sample_passages(field: ClearanceField, seeds: int, seed: int) -> np.ndarray:
     middle = middle[field.margins(middle) >= 0.0]
     cloud = np.repeat(middle, PASSAGE_CLOUD, axis=0)
     cloud = cloud + rng.normal(scale=CLOUD_SIGMA, size=cloud.shape) * field.semi_axes
-    candidates = np.concatenate([gaussian, cloud])
-    inside = np.all((candidates >= lo) & (candidates <= hi), axis=1)
-    candidates = candidates[inside]
+    candidates = np.concatenate([gaussian, cloud])  # margins < 0 outside the flight volume too
     return np.concatenate([middle, candidates[field.margins(candidates) >= 0.0]])
 
 
@@ -161,11 +159,9 @@ def approach_samples(field: ClearanceField, points: np.ndarray, pair_envelope: n
         return np.empty((0, 3))
     rng = np.random.default_rng(seed)
     extra = np.repeat(points, per_point, axis=0) + rng.normal(size=(len(points) * per_point, 3)) * pair_envelope
-    lo, hi = field.flight_volume
-    extra = extra[np.all((extra >= lo) & (extra <= hi), axis=1)]
     distance, _ = cKDTree(points / pair_envelope).query(extra / pair_envelope)
     extra = extra[distance >= 1.0]
-    return extra[field.margins(extra) >= 0.0]
+    return extra[field.margins(extra) >= 0.0]  # < 0 outside the flight volume too
 
 
 def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, pair_envelope: np.ndarray,

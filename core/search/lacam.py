@@ -193,7 +193,7 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
     lacam_steps = len(configs) - 1
     now = time.perf_counter()
     budget = min(started + time_limit - now, max(IMPROVE_MIN_SECONDS, improve_share * (now - started)))
-    if budget > 0 and not (not open_stack and best.g == heuristic(starts)):
+    if budget > 0 and (open_stack or best.g > heuristic(starts)):  # else proven optimal at the bound
         configs = shorten(roadmap, configs, hop_table, budget, cancel)
     paths = []
     for i in range(n):
