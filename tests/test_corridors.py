@@ -138,3 +138,25 @@ def test_tubes_stay_clear_of_a_mesh_and_rows_are_assembled_per_drone():
     tube_rows = partners == -1
     assert np.allclose(offsets[tube_rows], tubes.offsets[1].ravel())
     assert np.all(steps[tube_rows] == np.repeat([0, 1], 6))
+
+
+def test_tube_corners_span_the_tube_as_linear_programs_find_it():
+    """Each tube's corners satisfy its six half-spaces, and in random directions the largest
+    ``c · x`` over the half-spaces (an LP, scipy.optimize.linprog) is reached at a corner; so
+    ``inside`` (all corners in a box) says exactly whether the tube lies in that box."""
+    rng = np.random.default_rng(5)
+    starts, ends = _random_steps(rng, n=4, k=2)
+    envelope = np.array([0.4, 0.4, 0.9])
+    tubes = step_tubes(starts, ends, envelope, None)
+    for i, k in ((0, 0), (1, 1), (3, 0)):
+        normals, offsets, corners = tubes.normals[i, k], tubes.offsets[i, k], tubes.corners[i, k]
+        assert np.all(corners @ normals.T <= offsets + 1e-9)
+        for _ in range(10):
+            c = rng.normal(size=3)
+            res = linprog(-c, A_ub=normals, b_ub=offsets, bounds=[(None, None)] * 3)
+            assert res.success and -res.fun == pytest.approx((corners @ c).max(), abs=1e-7)
+    low, high = tubes.corners.min(axis=(0, 1, 2)), tubes.corners.max(axis=(0, 1, 2))
+    assert tubes.inside(low, high).all()
+    shrunk = tubes.inside(low + 1e-3, high)
+    lowest = np.unravel_index(np.argmin(tubes.corners[..., 0].min(axis=2)), tubes.corners.shape[:2])
+    assert not shrunk[lowest]

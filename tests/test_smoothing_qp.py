@@ -139,15 +139,39 @@ def test_objective_text():
 
 
 @pytest.mark.parametrize("seed", range(4))
-def test_our_clarabel_path_matches_the_cvxpy_formulation_solved_by_osqp(seed):
-    """The second solver (Clarabel through its own API, on our sparse matrices) against the
-    independent cvxpy formulation (finite differences, Gauss–Legendre quadrature) solved by OSQP at
-    tight tolerances: same optimum, and the result is feasible at production settings."""
+def test_our_clarabel_path_matches_the_cvxpy_formulation_solved_by_scs(seed):
+    """The Clarabel path (through its own API, norm limits as second-order cones, on our sparse
+    matrices) against the independent cvxpy formulation (finite differences, Gauss–Legendre
+    quadrature, norm balls) solved by SCS (O'Donoghue et al., "Conic optimization via operator
+    splitting and homogeneous self-dual embedding", 2016) at tight tolerances: same optimum."""
     problem = _random_problem(np.random.default_rng(10 + seed), pieces=2 + seed % 2, degree=7 + 2 * (seed % 2))
     ours = solve_drone(replace(problem, solvers=("Clarabel",)))
-    _, objective = solve_reference(problem, "OSQP", eps_abs=1e-10, eps_rel=1e-10, max_iter=2_000_000, polishing=True)
+    _, objective = solve_reference(problem, "SCS", balls=True, eps_abs=1e-10, eps_rel=1e-10, max_iters=1_000_000)
     assert ours.ok and ours.facts["solver"] == "Clarabel"
     assert ours.objective == pytest.approx(objective, rel=2e-4, abs=1e-9)
+
+
+def test_clarabel_uses_the_whole_limit_ball_and_osqp_the_inscribed_polytope():
+    """Binding acceleration limit: the cone solution reaches the ball (beyond the polytope's
+    inscribed radius) and never leaves it; the polytope solution stays within the polytope; the
+    larger feasible set gives the lower optimum. The cone optimum matches cvxpy + SCS."""
+    start, goal = np.zeros(3), np.array([4.0, 3.0, 1.0])
+    limits = np.array([10.0, 10.0, 1.5])
+    problem = _problem(7, [3.0, 3.0], start, goal, {"snap": 1.0, "acceleration": 1.0}, limits=limits)
+    cone = solve_drone(replace(problem, solvers=("Clarabel",)))
+    poly = solve_drone(replace(problem, solvers=("OSQP",)), TIGHT)
+    assert cone.ok and poly.ok
+
+    def peak_acceleration_cp(points):
+        h = np.asarray(problem.durations)[:, None, None]
+        return np.linalg.norm(7 * 6 * np.diff(points, n=2, axis=1) / h**2, axis=2).max()
+
+    s = inscribed_scale(ACCELERATION_DIRECTIONS)
+    assert s * limits[2] * 1.01 < peak_acceleration_cp(cone.points) <= limits[2] * (1 + 1e-3)
+    assert peak_acceleration_cp(poly.points) <= limits[2] * (1 + 1e-6)
+    assert cone.objective < poly.objective
+    _, objective = solve_reference(problem, "SCS", balls=True, eps_abs=1e-10, eps_rel=1e-10, max_iters=1_000_000)
+    assert cone.objective == pytest.approx(objective, rel=2e-4)
 
 
 def test_a_failed_first_solver_hands_the_problem_to_the_second(monkeypatch):

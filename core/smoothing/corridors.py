@@ -130,10 +130,17 @@ def _closest_direction(p: np.ndarray, q: np.ndarray) -> np.ndarray:
 @dataclass(frozen=True, eq=False)
 class Tubes:
     """Per drone and step six half-spaces ``normals · x ≤ offsets`` (unit world normals ``(N, K, 6, 3)``,
-    offsets ``(N, K, 6)`` m) bounding an oriented box around the roadmap step."""
+    offsets ``(N, K, 6)`` m) bounding an oriented box around the roadmap step, whose eight corners
+    are ``corners`` ``(N, K, 8, 3)`` m."""
 
     normals: np.ndarray
     offsets: np.ndarray
+    corners: np.ndarray
+
+    def inside(self, low: np.ndarray, high: np.ndarray) -> np.ndarray:
+        """``(N, K)`` whether each box lies inside the axis-aligned box ``low`` … ``high`` ``(3,)`` m
+        (a convex box lies inside it exactly when its corners do)."""
+        return np.all((self.corners >= low) & (self.corners <= high), axis=(2, 3))
 
 
 def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field: ClearanceField | None) -> Tubes:
@@ -152,7 +159,13 @@ def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field
     offsets = np.einsum("mfd,mfd->mf", normals, anchor) + half[:, None]
     world = normals / envelope
     norm = np.linalg.norm(world, axis=2)
-    return Tubes((world / norm[..., None]).reshape(n, k, 6, 3), (offsets / norm).reshape(n, k, 6))
+    length = np.linalg.norm(yb - ya, axis=1)
+    signs = np.array([[a, b, c] for a in (0, 1) for b in (-1, 1) for c in (-1, 1)], dtype=float)  # (8, 3)
+    along = np.where(signs[None, :, 0] > 0, length[:, None] + half[:, None], -half[:, None])  # (M, 8)
+    corners = (ya[:, None] + along[..., None] * u[:, None] + (signs[None, :, 1] * half[:, None])[..., None] * v[:, None]
+               + (signs[None, :, 2] * half[:, None])[..., None] * w[:, None]) * envelope
+    return Tubes((world / norm[..., None]).reshape(n, k, 6, 3), (offsets / norm).reshape(n, k, 6),
+                 corners.reshape(n, k, 8, 3))
 
 
 def _frames(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

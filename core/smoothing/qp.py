@@ -1,9 +1,14 @@
-"""One drone's piecewise-Bézier QP, built directly as sparse matrices and solved with OSQP.
+"""One drone's piecewise-Bézier QP, built directly as sparse matrices and solved with Clarabel or OSQP.
 
 Variables are the control points of the drone's ``K`` pieces, ``x[(k (n+1) + i) 3 + d]`` (metres).
 Constraints: rest at both ends, continuity at joins, every control point inside its piece's corridor
 (half-spaces) and the flight volume, and the velocity/acceleration control points inside the limit
-polytopes. By the Bézier convex-hull property the whole curve then satisfies them.
+balls. By the Bézier convex-hull property the whole curve then satisfies them.
+
+The norm limits (horizontal speed, acceleration) are second-order cones for Clarabel, which takes
+them as they are, and inscribed polytopes for OSQP, which takes only linear rows (a smaller feasible
+set: what OSQP finds satisfies the cones too). On 60 drones through a two-gap wall the cones left
+Clarabel a third of the rows (see DEVELOPERS.md, "Smoothing cost").
 """
 
 from __future__ import annotations
@@ -70,6 +75,9 @@ class DroneProblem:
     #: Solvers tried in turn until one succeeds ("OSQP", "Clarabel"); the smoother puts Clarabel
     #: first (:data:`core.smoothing.smoother.SOLVER_ORDER`).
     solvers: tuple[str, ...] = ("OSQP", "Clarabel")
+    #: ``(K,)`` True for pieces whose corridor rows already keep every control point inside the
+    #: flight volume (its tube lies inside it); their volume rows are left out. None: keep all.
+    inside_volume: np.ndarray | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -89,9 +97,27 @@ class DroneSolution:
 
 
 @dataclass(frozen=True, eq=False)
+class NormCones:
+    """Second-order cones ``‖D_c x‖₂ ≤ bound[c]``, one per derivative control point and limit:
+    ``D`` ``(C · dim, vars)`` stacks cone ``c``'s ``dim`` rows at ``c · dim …``; ``piece`` ``(C,)``;
+    rows and bounds are scaled alike (to unit ∞-norm rows), which leaves each cone's meaning."""
+
+    dim: int
+    D: sp.csr_matrix
+    bound: np.ndarray
+    piece: np.ndarray
+    family: str
+
+    def overstep(self, x: np.ndarray) -> np.ndarray:
+        """``(C,)`` ``‖D_c x‖ − bound[c]`` (≤ 0 where the cone holds)."""
+        return np.linalg.norm((self.D @ x).reshape(-1, self.dim), axis=1) - self.bound
+
+
+@dataclass(frozen=True, eq=False)
 class QPMatrices:
-    """``min xᵀPx`` (the objective integral / ``cost_scale``) s.t. ``l ≤ Ax ≤ u``; each row of ``A``
-    has a piece index and a constraint family name."""
+    """``min xᵀPx`` (the objective integral / ``cost_scale``) s.t. ``l ≤ Ax ≤ u`` and the ``cones``
+    (empty for OSQP, which gets the norm limits as rows of ``A``); each row of ``A`` has a piece
+    index and a constraint family name."""
 
     P: sp.csc_matrix
     A: sp.csc_matrix
@@ -100,41 +126,78 @@ class QPMatrices:
     row_piece: np.ndarray
     row_family: list[str]
     cost_scale: float
+    cones: tuple[NormCones, ...] = ()
 
 
 @dataclass(frozen=True, eq=False)
 class FixedRows:
-    """What a drone's QP keeps through every round of a transition: the unscaled cost ``P`` and
-    the rows before the corridors (rest, continuity) and after them (flight volume, limits)."""
+    """What a drone's QP keeps through every round of a transition: the unscaled cost ``P``, the
+    rows before the corridors (rest, continuity) and after them (flight volume, vertical speed),
+    and the norm limits both ways: as inscribed polytope rows (``polytopes``) and as ``cones``."""
 
     P: sp.csc_matrix
     head: _CollectedRows
     tail: _CollectedRows
+    polytopes: _CollectedRows
+    cones: tuple[NormCones, ...]
 
 
 def fixed_rows(problem: DroneProblem) -> FixedRows:
     """The round-independent parts of ``problem``'s QP (they depend on its durations, ends,
-    volume, limits and objective, never on its corridors or warm start)."""
+    volume, limits, objective and ``inside_volume``, never on its corridors or warm start)."""
     n, h = problem.degree, np.asarray(problem.durations, dtype=float)
-    blocks = [sp.kron(piece_cost_matrix(n, float(hk), problem.weights), sp.eye(3)) for hk in h]
     head = _RowBuilder(n, len(h))
     _rest_rows(head, problem)
     _join_rows(head, n, h)
     tail = _RowBuilder(n, len(h))
     free = ~_rest_fixed(len(h), n, rest_order(problem.weights))
+    if problem.inside_volume is not None:
+        free &= ~np.repeat(np.asarray(problem.inside_volume, dtype=bool), n + 1)
     pieces_all, cps_all = np.divmod(np.nonzero(free)[0], n + 1)
     low, high = problem.volume[0] + VOLUME_SLACK, problem.volume[1] - VOLUME_SLACK
     for d in range(3):
         tail.add(pieces_all, cps_all, np.ones((len(cps_all), 1)), np.tile(_AXES[d], (len(cps_all), 1)),
                  low[d], high[d], "flight volume")
     vh, vv, acc = problem.limits
-    _limit_rows(tail, h, n, [-1.0, 1.0], HORIZONTAL_DIRECTIONS, vh * inscribed_scale(HORIZONTAL_DIRECTIONS) / n,
-                1, "horizontal speed")
     _limit_rows(tail, h, n, [-1.0, 1.0], _VERTICAL, vv / n, 1, "vertical speed")
+    polytopes = _RowBuilder(n, len(h))
+    _limit_rows(polytopes, h, n, [-1.0, 1.0], HORIZONTAL_DIRECTIONS,
+                vh * inscribed_scale(HORIZONTAL_DIRECTIONS) / n, 1, "horizontal speed")
+    cones = [_norm_cones(h, n, [-1.0, 1.0], (0, 1), vh / n, 1, "horizontal speed")]
     if n >= 2:
-        _limit_rows(tail, h, n, [1.0, -2.0, 1.0], ACCELERATION_DIRECTIONS,
+        _limit_rows(polytopes, h, n, [1.0, -2.0, 1.0], ACCELERATION_DIRECTIONS,
                     acc * inscribed_scale(ACCELERATION_DIRECTIONS) / (n * (n - 1)), 2, "acceleration")
-    return FixedRows(sp.block_diag(blocks, format="csc"), head.collected(), tail.collected())
+        cones.append(_norm_cones(h, n, [1.0, -2.0, 1.0], (0, 1, 2), acc / (n * (n - 1)), 2, "acceleration"))
+    return FixedRows(_cost_matrix(n, h, problem.weights), head.collected(), tail.collected(), polytopes.collected(),
+                     tuple(cones))
+
+
+def _cost_matrix(n: int, h: np.ndarray, weights: dict[str, float]) -> sp.csc_matrix:
+    """Block-diagonal ``P`` ``(3 K (n + 1),)²``: each piece's :func:`piece_cost_matrix` on every axis."""
+    q = np.stack([piece_cost_matrix(n, float(hk), weights) for hk in h])  # (K, n+1, n+1)
+    width = 3 * (n + 1)
+    i, j, d = np.meshgrid(np.arange(n + 1), np.arange(n + 1), np.arange(3), indexing="ij")
+    base = np.arange(len(h))[:, None] * width
+    rows = (base + (3 * i + d).ravel()).ravel()
+    cols = (base + (3 * j + d).ravel()).ravel()
+    vals = np.broadcast_to(q[:, :, :, None], (len(h), n + 1, n + 1, 3)).ravel()
+    size = len(h) * width
+    return sp.csc_matrix((vals, (rows, cols)), shape=(size, size))
+
+
+def _norm_cones(h: np.ndarray, n: int, stencil: list[float], axes: tuple[int, ...], bound_per_h: float, order: int,
+                family: str) -> NormCones:
+    """``‖(Δ^order b_j)[axes]‖ ≤ bound_per_h · h**order`` for every piece and start ``j``."""
+    count = n + 1 - order
+    piece, first = np.divmod(np.arange(len(h) * count), count)
+    cones, dim = len(piece), len(axes)
+    scale = float(np.max(np.abs(stencil)))
+    cone, axis, t = np.meshgrid(np.arange(cones), np.arange(dim), np.arange(len(stencil)), indexing="ij")
+    rows = cone * dim + axis
+    cols = ((piece[cone] * (n + 1) + first[cone] + t) * 3 + np.asarray(axes)[axis])
+    vals = np.asarray(stencil)[t] / scale
+    D = sp.csr_matrix((vals.ravel(), (rows.ravel(), cols.ravel())), shape=(cones * dim, len(h) * (n + 1) * 3))
+    return NormCones(dim, D, bound_per_h * h[piece] ** order / scale, piece, family)
 
 
 #: This process's fixed rows of the transition it is smoothing, per drone (see :func:`_fixed_rows_for`).
@@ -153,8 +216,9 @@ def _fixed_rows_for(problem: DroneProblem) -> FixedRows:
     return _FIXED_CACHE[problem.fixed_key]
 
 
-def build_matrices(problem: DroneProblem) -> QPMatrices:
-    """The sparse QP of ``problem``; rows are scaled to unit ∞-norm, the cost to 1 at the warm start."""
+def build_matrices(problem: DroneProblem, conic: bool = False) -> QPMatrices:
+    """The sparse QP of ``problem``; rows are scaled to unit ∞-norm, the cost to 1 at the warm start.
+    ``conic``: the norm limits as second-order cones (for Clarabel), else as polytope rows."""
     n, h = problem.degree, np.asarray(problem.durations, dtype=float)
     k_count = len(h)
     n_vars = k_count * (n + 1) * 3
@@ -175,8 +239,10 @@ def build_matrices(problem: DroneProblem) -> QPMatrices:
                  -np.inf, np.repeat(problem.offsets, n + 1),
                  [f"corridor ({'obstacles' if p < 0 else f'drone #{p}'})" for p in np.repeat(problem.partners, n + 1)])
     rows.extend(fixed.tail)
+    if not conic:
+        rows.extend(fixed.polytopes)
     A, lower, upper, piece, family = rows.finish(n_vars)
-    return QPMatrices(P / cost_scale, A, lower, upper, piece, family, cost_scale)
+    return QPMatrices(P / cost_scale, A, lower, upper, piece, family, cost_scale, fixed.cones if conic else ())
 
 
 def solve_drone(problem: DroneProblem, options: dict | None = None, *, retry: bool = True) -> DroneSolution:
@@ -185,10 +251,11 @@ def solve_drone(problem: DroneProblem, options: dict | None = None, *, retry: bo
     constraint overstepped, infeasibility), unless ``retry`` is False. ``options`` override
     :data:`SOLVER_OPTIONS` for OSQP (tests use tighter tolerances)."""
     t0 = time.perf_counter()
-    m = build_matrices(problem)
-    facts = {"rows": m.A.shape[0], "variables": m.A.shape[1], "nonzeros": m.A.nnz + m.P.nnz}
     first: DroneSolution | None = None
     for name in problem.solvers[: len(problem.solvers) if retry else 1]:
+        m = build_matrices(problem, conic=name == "Clarabel")
+        facts = {"rows": m.A.shape[0] + sum(c.D.shape[0] + len(c.bound) for c in m.cones), "variables": m.A.shape[1],
+                 "nonzeros": m.A.nnz + m.P.nnz + sum(c.D.nnz for c in m.cones)}
         outcome = (_solve_with_osqp(problem, m, options, t0, facts) if name == "OSQP"
                    else _solve_with_clarabel(problem, m, t0, facts))
         if outcome.ok:
@@ -223,7 +290,7 @@ def _solve_with_osqp(problem: DroneProblem, m: QPMatrices, options: dict | None,
 def _accept(problem: DroneProblem, m: QPMatrices, x: np.ndarray | None, status: str, iterations: int, t0: float,
             facts: dict) -> DroneSolution:
     """A solver's point ``x`` made exact on the equalities and the pinned rest points, accepted when
-    no row is overstepped by more than :data:`FEASIBILITY_TOLERANCE` (None: the solver failed)."""
+    no row or cone is overstepped by more than :data:`FEASIBILITY_TOLERANCE` (None: the solver failed)."""
     if x is None:
         return _failed(problem, m, status, -1, iterations, t0, facts)
     x = _project_onto_equalities(m, x)
@@ -232,13 +299,21 @@ def _accept(problem: DroneProblem, m: QPMatrices, x: np.ndarray | None, status: 
     pinned = rest_order(problem.weights) + 1
     points[0, :pinned], points[-1, n + 1 - pinned:] = problem.start, problem.goal
     ax = m.A @ x
-    overstep = float(max(np.max(m.lower - ax), np.max(ax - m.upper), 0.0))
-    if overstep <= FEASIBILITY_TOLERANCE:
+    rows = np.maximum(m.lower - ax, ax - m.upper)
+    overstep = float(max(np.max(rows, initial=0.0), 0.0))
+    cone_overstep = [c.overstep(x) for c in m.cones]
+    worst_cone = max(range(len(m.cones)), key=lambda g: cone_overstep[g].max(initial=-np.inf), default=None)
+    cone_worst = -np.inf if worst_cone is None else float(cone_overstep[worst_cone].max(initial=-np.inf))
+    if max(overstep, cone_worst) <= FEASIBILITY_TOLERANCE:
         return DroneSolution(problem.drone, True, status, points, float(x @ (m.P @ x)) * m.cost_scale, iterations,
                              time.perf_counter() - t0, facts=facts)
-    worst = int(np.argmax(np.maximum(m.lower - ax, ax - m.upper)))
-    return _failed(problem, m, f"{status}, but a constraint is overstepped by {overstep:.1e}", worst, iterations, t0,
-                   facts)
+    if cone_worst > overstep:
+        cones = m.cones[worst_cone]
+        culprit = (int(cones.piece[int(np.argmax(cone_overstep[worst_cone]))]), cones.family)
+        return DroneSolution(problem.drone, False, f"{status}, but a constraint is overstepped by {cone_worst:.1e}",
+                             None, float("nan"), iterations, time.perf_counter() - t0, culprit, facts)
+    return _failed(problem, m, f"{status}, but a constraint is overstepped by {overstep:.1e}", int(np.argmax(rows)),
+                   iterations, t0, facts)
 
 
 def _failed(problem: DroneProblem, m: QPMatrices, status: str, worst: int, iterations: int, t0: float,
@@ -259,22 +334,44 @@ CLARABEL_REGULARIZATION = 1e-7
 def _solve_with_clarabel(problem: DroneProblem, m: QPMatrices, t0: float, facts: dict) -> DroneSolution:
     """``m`` by Clarabel's interior-point method (Goulart & Chen, "Clarabel: an interior-point
     solver for conic programs with quadratic objectives", 2024) through its own API: equality rows
-    in the zero cone, each finite side of the other rows in the non-negative cone (``A x + s = b``)."""
+    in the zero cone, each finite side of the other rows in the non-negative cone, each norm limit
+    ``‖D_c x‖ ≤ β_c`` as ``s = (β_c, D_c x)`` in a second-order cone (``A x + s = b``)."""
     equal = m.lower == m.upper
     upper = ~equal & np.isfinite(m.upper)
     lower = ~equal & np.isfinite(m.lower)
-    A = sp.vstack([m.A[equal], m.A[upper], -m.A[lower]], format="csc")
-    b = np.concatenate([m.lower[equal], m.upper[upper], -m.lower[lower]])
+    blocks = [m.A[equal], m.A[upper], -m.A[lower]]
+    b = [m.lower[equal], m.upper[upper], -m.lower[lower]]
+    second_order = []
+    for c in m.cones:
+        block, rhs = _cone_rows(c)
+        blocks.append(block)
+        b.append(rhs)
+        second_order += [clarabel.SecondOrderConeT(c.dim + 1)] * len(c.bound)
+    A = sp.vstack(blocks, format="csc")
+    b = np.concatenate(b)
     settings = clarabel.DefaultSettings()
     settings.verbose = False
     settings.tol_gap_abs = settings.tol_gap_rel = settings.tol_feas = CLARABEL_TOLERANCE
     settings.static_regularization_constant = CLARABEL_REGULARIZATION
-    cones = [clarabel.ZeroConeT(int(equal.sum())), clarabel.NonnegativeConeT(int(upper.sum() + lower.sum()))]
+    cones = [clarabel.ZeroConeT(int(equal.sum())), clarabel.NonnegativeConeT(int(upper.sum() + lower.sum())),
+             *second_order]
     solution = clarabel.DefaultSolver(sp.triu(2.0 * m.P, format="csc"), np.zeros(m.P.shape[0]), A, b, cones,
                                       settings).solve()
     status = str(solution.status)
     x = np.asarray(solution.x) if status in ("Solved", "AlmostSolved") else None
     return _accept(problem, m, x, status, int(solution.iterations), t0, {**facts, "solver": "Clarabel"})
+
+
+def _cone_rows(cones: NormCones) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Clarabel rows ``(C (dim + 1), vars)`` and right-hand side for ``s = b − A x = (β_c, D_c x)``."""
+    coo = cones.D.tocoo()
+    cone, axis = np.divmod(coo.row, cones.dim)
+    rows = cone * (cones.dim + 1) + 1 + axis
+    size = len(cones.bound) * (cones.dim + 1)
+    A = sp.csr_matrix((-coo.data, (rows, coo.col)), shape=(size, cones.D.shape[1]))
+    b = np.zeros(size)
+    b[:: cones.dim + 1] = cones.bound
+    return A, b
 
 
 def _project_onto_equalities(m: QPMatrices, x: np.ndarray) -> np.ndarray:

@@ -18,8 +18,10 @@ from .qp import VOLUME_SLACK, DroneProblem
 from .terms import continuity_order, rest_order
 
 
-def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variable]]:
-    """The cvxpy problem and its per-piece variables ``(n + 1, 3)`` for ``problem``."""
+def reference_problem(problem: DroneProblem, balls: bool = False) -> tuple[cp.Problem, list[cp.Variable]]:
+    """The cvxpy problem and its per-piece variables ``(n + 1, 3)`` for ``problem``; ``balls``: the
+    horizontal speed and acceleration limits as norm balls (as Clarabel gets them), else as the
+    inscribed polytopes (as OSQP gets them)."""
     n, h = problem.degree, np.asarray(problem.durations, dtype=float)
     b = [cp.Variable((n + 1, 3)) for _ in h]
 
@@ -57,16 +59,20 @@ def reference_problem(problem: DroneProblem) -> tuple[cp.Problem, list[cp.Variab
         cons += [b[k][first:last] >= low, b[k][first:last] <= high]
         v, a = deriv(k, 1), deriv(k, 2)
         vh, vv, acc = problem.limits
-        cons += [cp.abs(v @ HORIZONTAL_DIRECTIONS.T) <= vh * inscribed_scale(HORIZONTAL_DIRECTIONS),
-                 cp.abs(v[:, 2]) <= vv,
-                 cp.abs(a @ ACCELERATION_DIRECTIONS.T) <= acc * inscribed_scale(ACCELERATION_DIRECTIONS)]
+        cons.append(cp.abs(v[:, 2]) <= vv)
+        if balls:
+            cons += [cp.norm(v[:, :2], 2, axis=1) <= vh, cp.norm(a, 2, axis=1) <= acc]
+        else:
+            cons += [cp.abs(v @ HORIZONTAL_DIRECTIONS.T) <= vh * inscribed_scale(HORIZONTAL_DIRECTIONS),
+                     cp.abs(a @ ACCELERATION_DIRECTIONS.T) <= acc * inscribed_scale(ACCELERATION_DIRECTIONS)]
     return cp.Problem(cp.Minimize(cost), cons), b
 
 
-def solve_reference(problem: DroneProblem, solver: str = "CLARABEL", **options) -> tuple[np.ndarray, float]:
-    """Control points ``(K, n + 1, 3)`` and objective of ``problem`` solved by cvxpy with ``solver``
-    (``options`` go to the solver)."""
-    prob, b = reference_problem(problem)
+def solve_reference(problem: DroneProblem, solver: str = "CLARABEL", balls: bool = False,
+                    **options) -> tuple[np.ndarray, float]:
+    """Control points ``(K, n + 1, 3)`` and objective of ``problem`` (``balls``: see
+    :func:`reference_problem`) solved by cvxpy with ``solver`` (``options`` go to the solver)."""
+    prob, b = reference_problem(problem, balls)
     prob.solve(solver=solver, canon_backend=cp.SCIPY_CANON_BACKEND, **options)
     if prob.status not in ("optimal", "optimal_inaccurate"):
         raise RuntimeError(f"reference solver: {prob.status}")

@@ -25,7 +25,7 @@ from ..trajectory import FleetTrajectory
 from ..verify import VerificationSpec, verify
 from .corridors import PairPlanes, Tubes, drone_rows, initial_planes, refined_planes, step_tubes
 from .limits import safe_step_durations, stop_at_vertices_points
-from .qp import DroneProblem, DroneSolution, solve_drone
+from .qp import VOLUME_SLACK, DroneProblem, DroneSolution, solve_drone
 from .terms import curve_costs, rest_order, trajectory_cost
 
 #: Relative objective decrease below which the iteration stops.
@@ -129,6 +129,9 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     qp_durations = safe_step_durations(starts, ends, limits, options.degree)
     t0 = time.perf_counter()
     tubes = step_tubes(starts, ends, envelope, field)
+    # Inside by more than the QP's volume slack: a control point that oversteps its tube within
+    # the QP's feasibility tolerance still lies inside the volume.
+    inside_volume = tubes.inside(spec.flight_volume[0] + VOLUME_SLACK, spec.flight_volume[1] - VOLUME_SLACK)
     planes = initial_planes(starts, ends, clearance, envelope)
     seconds["corridors"] += time.perf_counter() - t0
     previous = stop_and_go = stop_at_vertices_points(starts, ends, options.degree)
@@ -151,7 +154,7 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
         # (scaling at each round's own warm start made round 2 hit the iteration cap).
         scales = curve_costs(stop_and_go, durations, options.weights)
         references = curve_costs(previous, durations, options.weights)
-        problems = [_problem(i, windows[i], positions, durations, tubes, planes, spec, limits, options,
+        problems = [_problem(i, windows[i], positions, durations, tubes, inside_volume, planes, spec, limits, options,
                              previous[i], float(scales[i]), f"{token}:{it}" if new_durations else current_token)
                     for i in moving]
         solutions: list[DroneSolution] = list(executor.map(solve_drone, problems))
@@ -279,17 +282,18 @@ def _step_tightness(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarra
 
 
 def _problem(i: int, window: np.ndarray, positions: np.ndarray, durations: np.ndarray, tubes: Tubes,
-             planes: PairPlanes, spec: VerificationSpec, limits: np.ndarray, options: SmoothingOptions,
-             initial: np.ndarray, reference: float, token: str | None) -> DroneProblem:
+             inside_volume: np.ndarray, planes: PairPlanes, spec: VerificationSpec, limits: np.ndarray,
+             options: SmoothingOptions, initial: np.ndarray, reference: float, token: str | None) -> DroneProblem:
     """Drone ``i``'s QP over its moving ``window`` of steps (see :func:`moving_windows`), Clarabel
-    first in every round (:data:`SOLVER_ORDER`)."""
+    first in every round (:data:`SOLVER_ORDER`); ``inside_volume`` ``(N, K)``: the steps whose
+    tube keeps every control point inside the flight volume (they get no volume rows)."""
     first, stop = int(window[0]), int(window[1])
     normals, offsets, steps, partners = drone_rows(i, tubes, planes)
     inside = (steps >= first) & (steps < stop)
     return DroneProblem(i, options.degree, durations[first:stop], positions[i, first], positions[i, stop],
                         normals[inside], offsets[inside], steps[inside] - first, partners[inside],
                         spec.flight_volume, limits[i], options.weights, initial[first:stop], reference or None,
-                        None if token is None else (token, i), SOLVER_ORDER)
+                        None if token is None else (token, i), SOLVER_ORDER, inside_volume[i, first:stop])
 
 
 def _compression(pieces: np.ndarray, durations: np.ndarray, limits: np.ndarray) -> float:
