@@ -159,11 +159,13 @@ def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field
     offsets = np.einsum("mfd,mfd->mf", normals, anchor) + half[:, None]
     world = normals / envelope
     norm = np.linalg.norm(world, axis=2)
-    length = np.linalg.norm(yb - ya, axis=1)
-    signs = np.array([[a, b, c] for a in (0, 1) for b in (-1, 1) for c in (-1, 1)], dtype=float)  # (8, 3)
-    along = np.where(signs[None, :, 0] > 0, length[:, None] + half[:, None], -half[:, None])  # (M, 8)
-    corners = (ya[:, None] + along[..., None] * u[:, None] + (signs[None, :, 1] * half[:, None])[..., None] * v[:, None]
-               + (signs[None, :, 2] * half[:, None])[..., None] * w[:, None]) * envelope
+    # Corners ya + α u + β v + γ w: α ∈ {−e, length + e}, β, γ ∈ {−e, e}.
+    far = np.linalg.norm(yb - ya, axis=1) + half
+    pick = np.array([(a, b, c) for a in (0, 1) for b in (0, 1) for c in (0, 1)])  # (8, 3): which end per axis
+    ends = np.stack([np.stack([-half, far], axis=1), np.stack([-half, half], axis=1),
+                     np.stack([-half, half], axis=1)], axis=1)  # (M, 3 axes, 2 ends)
+    coefficients = ends[:, np.arange(3), pick]  # (M, 8, 3)
+    corners = (ya[:, None] + np.einsum("mcf,mfd->mcd", coefficients, np.stack([u, v, w], axis=1))) * envelope
     return Tubes((world / norm[..., None]).reshape(n, k, 6, 3), (offsets / norm).reshape(n, k, 6),
                  corners.reshape(n, k, 8, 3))
 

@@ -284,7 +284,7 @@ def _solve_with_osqp(problem: DroneProblem, m: QPMatrices, options: dict | None,
         return _accept(problem, m, result.x, result.info.status, result.info.iter, t0, facts)
     certificate = result.prim_inf_cert
     worst = int(np.argmax(np.abs(certificate))) if certificate is not None and np.any(certificate) else -1
-    return _failed(problem, m, result.info.status, worst, result.info.iter, t0, facts)
+    return _failed(problem, result.info.status, _row_culprit(m, worst), result.info.iter, t0, facts)
 
 
 def _accept(problem: DroneProblem, m: QPMatrices, x: np.ndarray | None, status: str, iterations: int, t0: float,
@@ -292,7 +292,7 @@ def _accept(problem: DroneProblem, m: QPMatrices, x: np.ndarray | None, status: 
     """A solver's point ``x`` made exact on the equalities and the pinned rest points, accepted when
     no row or cone is overstepped by more than :data:`FEASIBILITY_TOLERANCE` (None: the solver failed)."""
     if x is None:
-        return _failed(problem, m, status, -1, iterations, t0, facts)
+        return _failed(problem, status, None, iterations, t0, facts)
     x = _project_onto_equalities(m, x)
     k_count, n = len(problem.durations), problem.degree
     points = x.reshape(k_count, n + 1, 3)
@@ -300,25 +300,26 @@ def _accept(problem: DroneProblem, m: QPMatrices, x: np.ndarray | None, status: 
     points[0, :pinned], points[-1, n + 1 - pinned:] = problem.start, problem.goal
     ax = m.A @ x
     rows = np.maximum(m.lower - ax, ax - m.upper)
-    overstep = float(max(np.max(rows, initial=0.0), 0.0))
-    cone_overstep = [c.overstep(x) for c in m.cones]
-    worst_cone = max(range(len(m.cones)), key=lambda g: cone_overstep[g].max(initial=-np.inf), default=None)
-    cone_worst = -np.inf if worst_cone is None else float(cone_overstep[worst_cone].max(initial=-np.inf))
-    if max(overstep, cone_worst) <= FEASIBILITY_TOLERANCE:
+    overstep, culprit = float(np.max(rows, initial=0.0)), _row_culprit(m, int(np.argmax(rows)) if len(rows) else -1)
+    for cones in m.cones:
+        over = cones.overstep(x)
+        if len(over) and over.max() > overstep:
+            worst = int(np.argmax(over))
+            overstep, culprit = float(over[worst]), (int(cones.piece[worst]), cones.family)
+    if overstep <= FEASIBILITY_TOLERANCE:
         return DroneSolution(problem.drone, True, status, points, float(x @ (m.P @ x)) * m.cost_scale, iterations,
                              time.perf_counter() - t0, facts=facts)
-    if cone_worst > overstep:
-        cones = m.cones[worst_cone]
-        culprit = (int(cones.piece[int(np.argmax(cone_overstep[worst_cone]))]), cones.family)
-        return DroneSolution(problem.drone, False, f"{status}, but a constraint is overstepped by {cone_worst:.1e}",
-                             None, float("nan"), iterations, time.perf_counter() - t0, culprit, facts)
-    return _failed(problem, m, f"{status}, but a constraint is overstepped by {overstep:.1e}", int(np.argmax(rows)),
-                   iterations, t0, facts)
+    return _failed(problem, f"{status}, but a constraint is overstepped by {overstep:.1e}", culprit, iterations, t0,
+                   facts)
 
 
-def _failed(problem: DroneProblem, m: QPMatrices, status: str, worst: int, iterations: int, t0: float,
+def _row_culprit(m: QPMatrices, row: int) -> tuple[int, str] | None:
+    """Piece and constraint family of row ``row`` of ``m.A`` (None for -1)."""
+    return (int(m.row_piece[row]), m.row_family[row]) if row >= 0 else None
+
+
+def _failed(problem: DroneProblem, status: str, culprit: tuple[int, str] | None, iterations: int, t0: float,
             facts: dict) -> DroneSolution:
-    culprit = (int(m.row_piece[worst]), m.row_family[worst]) if worst >= 0 else None
     return DroneSolution(problem.drone, False, status, None, float("nan"), iterations, time.perf_counter() - t0,
                          culprit, facts)
 
