@@ -43,8 +43,8 @@ def courtyard_benchmark(name: str = "courtyard_swap.json") -> list[qp.DroneProbl
             smoother.solve_drone = original
         t = result.transitions[0]
         sec = t.smoothing.seconds
-        print(f"{scene.name}, {len(scene.fleet.drones)} drones, {label}: search and smoothing "
-              f"{result.stage_seconds['search and smoothing']:.2f} s "
+        print(f"{scene.name}, {len(scene.fleet.drones)} drones, {label}: search "
+              f"{result.stage_seconds['search']:.2f} s, smoothing {result.stage_seconds['smoothing']:.2f} s "
               f"(corridors {sec['corridors']:.2f} s, QPs {sec['qp']:.2f} s, verification {sec['verification']:.2f} s), "
               f"whole plan {total:.2f} s, verified {result.verified}")
     base = t.stop_and_go

@@ -23,8 +23,10 @@ AUCTION_RELATIVE_EPS = 1e-7
 
 @dataclass(frozen=True)
 class Assignment:
-    """``goal_of[i]``: goal point index for drone ``i`` ``(N,)``; ``cost``: sum of squared scaled
-    distances; ``method``: how it was found; ``gap_bound``: proven bound on ``cost - optimum``."""
+    """``goal_of[i]``: goal point index for drone ``i`` ``(N,)``; ``cost``: the minimised sum (of
+    squared scaled distances, or of roadmap path lengths); ``method``: how it was found;
+    ``gap_bound``: proven bound on ``cost - optimum``. Both are nan where the multi-agent search
+    exchanged goals afterwards (``method`` says so)."""
 
     goal_of: np.ndarray
     cost: float

@@ -1,9 +1,10 @@
 """The planning pipeline shared by the CLI and the GUI.
 
 scene → per transition, in timeline order: goal assignment and straight lines if they are clear,
-else the roadmap assignment (this chain is cheap and fixes every transition's starts and goals)
-→ the roadmap transitions' search and smoothing, as independent tasks on an executor (or one by
-one with their per-drone QPs on it) → trajectories → independent verification.
+else the roadmap assignment and the multi-agent search (this chain fixes every transition's
+starts and goals: the search may exchange goals within a group) → the roadmap transitions'
+smoothing, as independent tasks on an executor (or one by one with their per-drone QPs on it) →
+trajectories → independent verification.
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ from .planning import (
     plan_on_roadmap,
     plan_straight,
     roadmap_assignment,
+    search_on_roadmap,
 )
 from .progress import CancelToken, ProgressCallback, no_progress
 from .scene.model import PlannerSettings, Scene
@@ -105,11 +107,11 @@ def _plan(scene: Scene, settings: PlannerSettings, base_dir: Path, use_cache: bo
     _check_profiles(scene, settings)
     context, reused_context = _context(scene, settings, base_dir, use_cache, source, previous)
     timings: dict[str, float] = {"straight lines": 0.0, "roadmap assignment": 0.0}
-    results, jobs = _chain(scene, context, previous if reused_context else None, timings, progress, cancel)
+    results, jobs = _chain(scene, context, solver, previous if reused_context else None, timings, progress, cancel)
     t0 = time.perf_counter()
-    for k, result in _run_jobs(jobs, context, solver, executor, progress, cancel):
+    for k, result in _run_jobs(jobs, context, executor, progress, cancel):
         results[k] = result
-    timings["search and smoothing"] = time.perf_counter() - t0
+    timings["smoothing"] = time.perf_counter() - t0
     trajectory = _assemble(scene, settings, results)
     if trajectory.duration > MAX_TIMELINE_S:
         raise PlanningError(f"the timeline would last {trajectory.duration:.0f} s; at most {MAX_TIMELINE_S:.0f} s "
@@ -136,12 +138,14 @@ def _check_profiles(scene: Scene, settings: PlannerSettings) -> None:
                                 f"(needs at least {profile.degree})")
 
 
-def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, timings: dict[str, float],
-           progress: ProgressCallback, cancel: CancelToken
+def _chain(scene: Scene, context: PlanningContext, solver: MultiAgentSolver | None, previous: PlanResult | None,
+           timings: dict[str, float], progress: ProgressCallback, cancel: CancelToken
            ) -> tuple[list[TransitionResult | None], list[tuple[int, TransitionProblem, object, float]]]:
     """Walk the timeline in order: each transition's problem, its assignment (which fixes the next
     one's starts), and its result when straight lines do (or the earlier plan has it); the others
-    become roadmap jobs ``(index, problem, assignment, lower bound)``."""
+    are searched on the roadmap here (an exchange of goals changes the next starts) and become
+    smoothing jobs ``(index, problem, roadmap search, lower bound)``."""
+    timings["search"] = 0.0
     start = scene.formation(scene.timeline.start)
     positions, occupied, current = start.positions.copy(), np.arange(len(start.positions)), start
     results: list[TransitionResult | None] = []
@@ -171,24 +175,25 @@ def _chain(scene: Scene, context: PlanningContext, previous: PlanResult | None, 
                 t0 = time.perf_counter()
                 assignment = roadmap_assignment(problem, context, progress, cancel)
                 timings["roadmap assignment"] += time.perf_counter() - t0
-                jobs.append((k, problem, assignment, attempt.lower_bound))
-                goal_of = assignment.goal_of
+                t0 = time.perf_counter()
+                search = search_on_roadmap(problem, assignment, context, solver, progress=progress, cancel=cancel)
+                timings["search"] += time.perf_counter() - t0
+                jobs.append((k, problem, search, attempt.lower_bound))
+                goal_of = search.assignment.goal_of
         positions, occupied, current = target.positions[goal_of], goal_of, target
     return results, jobs
 
 
-def _run_jobs(jobs, context: PlanningContext, solver: MultiAgentSolver | None, executor: Executor,
-              progress: ProgressCallback, cancel: CancelToken):
+def _run_jobs(jobs, context: PlanningContext, executor: Executor, progress: ProgressCallback, cancel: CancelToken):
     """Yield ``(index, result)`` of every roadmap job. Several jobs on a real executor run as
     parallel tasks (each solving its per-drone QPs inline); otherwise one by one here, with the
     per-drone QPs on the executor. Both give the same plan (every stage is deterministic)."""
     if len(jobs) < 2 or isinstance(executor, InlineExecutor):
-        for k, problem, assignment, bound in jobs:
-            yield k, plan_on_roadmap(problem, assignment, bound, context, solver, executor, progress=progress,
-                                     cancel=cancel)
+        for k, problem, search, bound in jobs:
+            yield k, plan_on_roadmap(problem, search, bound, context, executor, progress=progress, cancel=cancel)
         return
-    futures = {executor.submit(plan_on_roadmap, problem, assignment, bound, context, solver): k
-               for k, problem, assignment, bound in jobs}
+    futures = {executor.submit(plan_on_roadmap, problem, search, bound, context): k
+               for k, problem, search, bound in jobs}
     pending = set(futures)
     try:
         while pending:

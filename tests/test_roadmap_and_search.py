@@ -170,17 +170,23 @@ def test_search_time_limit_reports_the_unresolved_drones():
     assert info.value.conflicts and {info.value.conflicts[0].a, info.value.conflicts[0].b} == {0, 1}
 
 
-def _optimal_makespan(roadmap, starts, goals):
+def _optimal_makespan(roadmap, starts, goals, groups=None):
     """Exhaustive breadth-first search over joint configurations (every agent waits or takes one
     edge per step, no two actions in conflict): the fewest synchronized steps until every agent
-    stands on its goal, or None when no configuration sequence gets there."""
+    stands on its goal, or None when no configuration sequence gets there. With ``groups`` (a
+    label per agent and its goal), any agent of a group may end on any goal of that group."""
     n = len(starts)
     moves = [[(u, u)] + [(w, a) for w, a in roadmap.neighbours[u]] for u in range(roadmap.n_vertices)]
     table = roadmap.action_conflicts.toarray()
-    start, goal = tuple(starts), tuple(goals)
+    labels = list(range(n)) if groups is None else list(groups)
+
+    def per_group(config):
+        return sorted(zip(labels, config, strict=True))
+
+    start, goal = tuple(starts), per_group(goals)
     seen, frontier, steps = {start}, [start], 0
     while frontier:
-        if goal in frontier:
+        if any(per_group(pos) == goal for pos in frontier):
             return steps
         nxt = []
         for pos in frontier:
@@ -225,6 +231,38 @@ def test_lacam_is_complete_on_tiny_instances():
     with pytest.raises(LacamFailed) as info:
         lacam(corridor, np.array([0, 2]), np.array([2, 0]), time_limit=30)
     assert info.value.exhausted and sorted(info.value.stuck.tolist()) == [0, 1]
+
+
+@pytest.mark.parametrize("groups", [[0, 0, 0], [0, 1, 1]])
+def test_lacam_with_goal_groups_reaches_the_exhaustive_optimum_over_the_goal_set(groups):
+    """Unlabeled and grouped search: every drone must end on a goal of its group, exchanges allowed
+    (TSWAP, Okumura & Défago, AIJ 2023). LaCAM*'s open list emptied means optimal in steps over
+    the goal set, checked against the exhaustive search with the same goal test; never worse than
+    the labeled optimum."""
+    groups = np.array(groups)
+    for roadmap, starts, goals in _instances(5, 8):
+        optimum = _optimal_makespan(roadmap, starts.tolist(), goals.tolist(), groups.tolist())
+        result = lacam(roadmap, starts, goals, groups=groups, time_limit=60, refine_share=1e6)
+        assert result.optimal and result.steps == optimum <= _optimal_makespan(roadmap, starts.tolist(),
+                                                                               goals.tolist())
+        assert [p[-1] for p in result.paths] == result.goals.tolist()
+        for g in set(groups.tolist()):
+            assert sorted(result.goals[groups == g].tolist()) == sorted(goals[groups == g].tolist())
+        assert _discrete_ok(roadmap, result.paths, result.steps)
+
+
+def test_goal_groups_let_drones_that_cannot_pass_in_a_corridor_arrive():
+    """Two drones in a corridor cannot swap order; labeled goals in the swapped order have no plan
+    (the exhaustive search agrees), one goal group has."""
+    corridor = _grid_roadmap(4, 1, np.array([0.45, 0.45, 0.45]))
+    starts, goals = np.array([0, 1]), np.array([3, 2])
+    assert _optimal_makespan(corridor, [0, 1], [3, 2]) is None
+    with pytest.raises(LacamFailed):
+        lacam(corridor, starts, goals, time_limit=30)
+    result = lacam(corridor, starts, goals, groups=np.array([7, 7]), time_limit=30, refine_share=1e6)
+    assert result.goals.tolist() == [2, 3] and result.optimal
+    assert result.steps == _optimal_makespan(corridor, [0, 1], [3, 2], [7, 7])
+    assert _discrete_ok(corridor, result.paths, result.steps)
 
 
 def test_lacam_plans_a_crowd_on_a_sampled_roadmap_conflict_free():

@@ -11,13 +11,13 @@ from .results import (
     TransitionMethod,
     TransitionResult,
 )
-from .roadmap_path import plan_on_roadmap, roadmap_assignment
+from .roadmap_path import RoadmapSearch, plan_on_roadmap, roadmap_assignment, search_on_roadmap
 from .solvers import EcbsSolver, LacamSolver, MultiAgentSolver, SearchOutcome, choose_solver
 from .straight import StraightAttempt, plan_straight
 
 __all__ = [
     "AttachedRoadmap", "EcbsSolver", "LacamSolver", "MultiAgentSolver", "PlanningContext", "RoadmapFigures",
-    "SearchFigures", "SearchOutcome", "SmoothingFigures", "StopAndGoFigures", "StraightAttempt",
+    "RoadmapSearch", "SearchFigures", "SearchOutcome", "SmoothingFigures", "StopAndGoFigures", "StraightAttempt",
     "TransitionMethod", "TransitionProblem", "TransitionResult", "choose_solver", "plan_on_roadmap",
-    "plan_straight", "roadmap_assignment",
+    "plan_straight", "roadmap_assignment", "search_on_roadmap",
 ]

@@ -1,9 +1,11 @@
 """Transitions whose straight lines are blocked: assignment by roadmap path length, multi-agent
-search, an independent discrete check, the stop-and-go baseline, then corridor smoothing."""
+search (which may exchange goals within a group), an independent discrete check, the stop-and-go
+baseline, then corridor smoothing."""
 
 from __future__ import annotations
 
 from concurrent.futures import Executor
+from dataclasses import dataclass
 
 import numpy as np
 from scipy.sparse import csgraph
@@ -25,7 +27,7 @@ from ..verify.discrete import check_discrete_plan
 from .context import PlanningContext
 from .problem import TransitionProblem
 from .results import SmoothingFigures, StopAndGoFigures, TransitionMethod, TransitionResult
-from .solvers import MultiAgentSolver, choose_solver
+from .solvers import MultiAgentSolver, SearchOutcome, choose_solver
 from .timing import requested_duration
 
 
@@ -60,21 +62,53 @@ def roadmap_assignment(problem: TransitionProblem, context: PlanningContext,
     return chosen
 
 
-def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bound: float, context: PlanningContext,
-                    solver: MultiAgentSolver | None, executor: Executor | None = None, *,
-                    progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> TransitionResult:
-    """Plan ``problem`` on the roadmap with goals fixed by ``assignment``: search, discrete check,
-    stop-and-go pieces, then smoothing (per-drone QPs on ``executor``, inline when None) unless
-    the settings turn it off. ``solver`` None: :func:`~.solvers.choose_solver`. ``lower_bound`` (s)
-    is the straight-line bound reported beside it."""
+@dataclass(frozen=True, eq=False)
+class RoadmapSearch:
+    """The multi-agent search's paths on the roadmap (``found``) and the assignment they fly:
+    the roadmap assignment, or where the search exchanged goals within groups, the one it ended
+    with (which fixes the next transition's starts)."""
+
+    assignment: Assignment
+    found: SearchOutcome
+
+
+def search_on_roadmap(problem: TransitionProblem, assignment: Assignment, context: PlanningContext,
+                      solver: MultiAgentSolver | None, *, progress: ProgressCallback = no_progress,
+                      cancel: CancelToken | None = None) -> RoadmapSearch:
+    """Search conflict-free roadmap paths to the goals of ``assignment``; unlabeled drones (one
+    group) and grouped ones (their groups) may end on each other's goals where the solver
+    exchanges them. ``solver`` None: :func:`~.solvers.choose_solver`."""
     attached = context.roadmap(progress, cancel)
     roadmap, vertex_of = attached.roadmap, attached.vertex_of
     starts = vertex_of[problem.source][problem.occupied]
-    goals = vertex_of[problem.target][assignment.goal_of]
-    ids, settings = context.scene.fleet.ids, context.settings
+    goal_vertices = vertex_of[problem.target]
+    goals = goal_vertices[assignment.goal_of]
+    groups = None if problem.mode == "labeled" else (
+        np.zeros(len(starts), dtype=np.int64) if problem.mode == "unlabeled" else np.asarray(problem.start_groups))
+    settings = context.settings
     solver = solver or choose_solver(settings, len(starts))
-    found = solver.solve(roadmap, starts, goals, ids, time_limit=settings.search_time_limit, progress=progress,
-                         cancel=cancel)
+    found = solver.solve(roadmap, starts, goals, context.scene.fleet.ids, groups=groups,
+                         time_limit=settings.search_time_limit, progress=progress, cancel=cancel)
+    exchanged = found.goals != goals
+    if not exchanged.any():
+        return RoadmapSearch(assignment, found)
+    point_of = {int(v): k for k, v in enumerate(goal_vertices.tolist())}
+    goal_of = np.array([point_of[int(v)] for v in found.goals])
+    method = f"{assignment.method}, then {int(exchanged.sum())} goals exchanged in the search"
+    return RoadmapSearch(Assignment(goal_of, float("nan"), method, float("nan")), found)
+
+
+def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bound: float, context: PlanningContext,
+                    executor: Executor | None = None, *, progress: ProgressCallback = no_progress,
+                    cancel: CancelToken | None = None) -> TransitionResult:
+    """Fly ``problem``'s roadmap ``search``: discrete check, stop-and-go pieces, then smoothing
+    (per-drone QPs on ``executor``, inline when None) unless the settings turn it off.
+    ``lower_bound`` (s) is the straight-line bound reported beside it."""
+    attached = context.roadmap(progress, cancel)
+    roadmap, vertex_of = attached.roadmap, attached.vertex_of
+    starts = vertex_of[problem.source][problem.occupied]
+    found, assignment = search.found, search.assignment
+    ids, settings = context.scene.fleet.ids, context.settings
     positions = _step_positions(roadmap, found.paths)
     conflicts = check_discrete_plan(positions, context.clearance)
     if conflicts:
@@ -104,7 +138,7 @@ def plan_on_roadmap(problem: TransitionProblem, assignment: Assignment, lower_bo
                                   "the roadmap plan around the obstacles needs")
     return TransitionResult(problem, method, assignment, durations * (duration / needed), pieces, duration, needed,
                             lower_bound, False, found.figures, baseline, smoothing,
-                            free_space_bound(roadmap, starts, goals, context.scene.fleet.limits))
+                            free_space_bound(roadmap, starts, found.goals, context.scene.fleet.limits))
 
 
 def free_space_bound(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, limits: np.ndarray) -> float:

@@ -27,21 +27,24 @@ ECBS_SHARE = 0.25
 
 @dataclass(frozen=True, eq=False)
 class SearchOutcome:
-    """Conflict-free vertex paths ``paths[i]`` (one vertex per step until drone ``i`` arrives)
-    and the figures of the search that found them."""
+    """Conflict-free vertex paths ``paths[i]`` (one vertex per step until drone ``i`` arrives),
+    the goal vertex each drone ends on ``goals`` ``(N,)``, and the figures of the search."""
 
     paths: list[tuple[int, ...]]
+    goals: np.ndarray
     figures: SearchFigures
 
 
 class MultiAgentSolver(Protocol):
     """Finds synchronized, conflict-free paths on a roadmap for drones from vertex ``starts`` to
-    vertex ``goals`` ``(N,)``; raises :class:`PlanningError` naming the drones it could not route."""
+    vertex ``goals`` ``(N,)``; where ``groups`` ``(N,)`` labels them, drones of one label may end
+    on each other's goals instead (a solver may also keep the goals as given). Raises
+    :class:`PlanningError` naming the drones it could not route."""
 
     name: str
 
     def solve(self, roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, drone_ids: tuple[str, ...], *,
-              time_limit: float, progress: ProgressCallback = no_progress,
+              groups: np.ndarray | None = None, time_limit: float, progress: ProgressCallback = no_progress,
               cancel: CancelToken | None = None) -> SearchOutcome: ...
 
 
@@ -55,8 +58,9 @@ class EcbsSolver:
     name: str = "ECBS"
 
     def solve(self, roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, drone_ids: tuple[str, ...], *,
-              time_limit: float, progress: ProgressCallback = no_progress,
+              groups: np.ndarray | None = None, time_limit: float, progress: ProgressCallback = no_progress,
               cancel: CancelToken | None = None) -> SearchOutcome:
+        """ECBS keeps every drone's goal as given (``groups`` are not used)."""
         try:
             return self.search(roadmap, starts, goals, time_limit=time_limit, progress=progress, cancel=cancel)
         except SearchFailed as e:
@@ -69,7 +73,7 @@ class EcbsSolver:
                progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> SearchOutcome:
         """:meth:`solve` without the message: raises :class:`~core.search.SearchFailed`."""
         result = ecbs(roadmap, starts, goals, w=self.w, time_limit=time_limit, progress=progress, cancel=cancel)
-        return SearchOutcome(result.paths, SearchFigures(
+        return SearchOutcome(result.paths, np.asarray(goals), SearchFigures(
             solver=self.name, reason=self.reason, nodes_expanded=result.nodes_expanded,
             nodes_generated=result.nodes_generated, low_level_expansions=result.low_level_expansions,
             sum_of_costs=result.cost, cost_lower_bound=result.lower_bound, w=result.w, steps=result.makespan,
@@ -87,11 +91,11 @@ class LacamSolver:
     name: str = "LaCAM*"
 
     def solve(self, roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, drone_ids: tuple[str, ...], *,
-              time_limit: float, progress: ProgressCallback = no_progress,
+              groups: np.ndarray | None = None, time_limit: float, progress: ProgressCallback = no_progress,
               cancel: CancelToken | None = None) -> SearchOutcome:
         try:
-            r = lacam(roadmap, starts, goals, time_limit=time_limit, refine_share=self.refine_share, seed=self.seed,
-                      progress=progress, cancel=cancel)
+            r = lacam(roadmap, starts, goals, groups=groups, time_limit=time_limit, refine_share=self.refine_share,
+                      seed=self.seed, progress=progress, cancel=cancel)
         except LacamFailed as e:
             raise PlanningError(f"{e}; " + _describe_stuck(e, roadmap, drone_ids)
                                 + (". More roadmap samples or a wider passage may help." if e.exhausted else
@@ -101,7 +105,10 @@ class LacamSolver:
                    + (f"{r.search_steps} steps" if r.search_steps < r.first_steps else "none shorter")
                    + (" (optimal in steps on this roadmap)" if r.optimal else "")
                    + f"; single-drone replanning: {r.steps} steps")
-        return SearchOutcome(r.paths, SearchFigures(
+        exchanged = int(np.count_nonzero(r.goals != np.asarray(goals)))
+        if groups is not None:
+            refined += f"; {exchanged} drones took another goal of their group (TSWAP exchanges)"
+        return SearchOutcome(r.paths, r.goals, SearchFigures(
             solver=self.name, reason=self.reason, nodes_expanded=r.nodes, nodes_generated=r.configurations,
             low_level_expansions=0, sum_of_costs=r.cost, cost_lower_bound=r.lower_bound, w=None, steps=r.steps,
             seconds=r.seconds, refinement=refined))
@@ -117,7 +124,7 @@ class EcbsThenLacam:
     name: str = "ECBS, then LaCAM*"
 
     def solve(self, roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, drone_ids: tuple[str, ...], *,
-              time_limit: float, progress: ProgressCallback = no_progress,
+              groups: np.ndarray | None = None, time_limit: float, progress: ProgressCallback = no_progress,
               cancel: CancelToken | None = None) -> SearchOutcome:
         first = ECBS_SHARE * time_limit
         try:
@@ -125,7 +132,7 @@ class EcbsThenLacam:
                                                           progress=progress, cancel=cancel)
         except SearchFailed as e:
             why = f"{self.reason}; ECBS gave up after {first:g} s ({e}), so LaCAM* planned"
-        return LacamSolver(why, seed=self.seed).solve(roadmap, starts, goals, drone_ids,
+        return LacamSolver(why, seed=self.seed).solve(roadmap, starts, goals, drone_ids, groups=groups,
                                                       time_limit=time_limit - first, progress=progress,
                                                       cancel=cancel)
 

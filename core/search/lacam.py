@@ -15,6 +15,13 @@ nodes whose step count plus the heuristic (the farthest drone's hop distance) ca
 plan are dropped, and reaching a known configuration by a shorter route rewires its descendants.
 When the open list empties, the plan is optimal in steps on this roadmap.
 
+With goal ``groups`` (unlabeled and grouped transitions) a configuration is a goal when every
+drone stands on a goal of its group; each node carries the goal each drone heads for, which the
+step generator exchanges between drones of a group (TSWAP's rule, see :mod:`core.search.pibt`).
+Completeness does not depend on those targets (the constraints still reach every successor), and
+the heuristic (each drone's hop distance to the nearest goal of its group) stays admissible, so
+LaCAM*'s optimality in steps holds for the goal set.
+
 PIBT's plans make drones wait and detour in crowds; replanning each drone alone against the others
 (:mod:`core.search.improve`) then removes most of that at a small cost.
 """
@@ -39,12 +46,14 @@ IMPROVE_MIN_SECONDS = 1.0
 
 @dataclass(frozen=True)
 class LacamResult:
-    """paths : vertex per step for each drone, until it last arrives; steps : makespan (steps);
+    """paths : vertex per step for each drone, until it last arrives; goals : ``(N,)`` the goal
+    vertex each drone ends on (with goal groups, maybe another than it was given); steps : makespan (steps);
     first_steps : makespan of the first plan found; search_steps : after LaCAM*'s refinement
     (before single-drone replanning, :mod:`core.search.improve`); optimal : the refinement proved
     ``search_steps`` optimal on this roadmap; cost : sum of costs (steps); lower_bound : Σ hop distances."""
 
     paths: list[tuple[int, ...]]
+    goals: np.ndarray
     steps: int
     first_steps: int
     search_steps: int
@@ -88,17 +97,20 @@ class _Node:
     parent: _Node | None
     order: np.ndarray
     priority: np.ndarray
+    targets: np.ndarray
     g: int
     h: int
     tree: deque = field(default_factory=deque)
     neighbours: set = field(default_factory=set)
 
 
-def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit: float = 60.0,
-          refine_share: float = 1.0, improve_share: float = 2.0, seed: int = 0,
+def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, groups: np.ndarray | None = None,
+          time_limit: float = 60.0, refine_share: float = 1.0, improve_share: float = 2.0, seed: int = 0,
           progress: ProgressCallback = no_progress,
           cancel: CancelToken | None = None) -> LacamResult:
-    """Conflict-free synchronized paths from vertex ``starts`` ``(N,)`` to vertex ``goals`` ``(N,)``.
+    """Conflict-free synchronized paths from vertex ``starts`` ``(N,)`` to vertex ``goals`` ``(N,)``
+    (distinct). ``groups`` ``(N,)``: a label per drone; drones with one label may end on each
+    other's goals (None: every drone on its own goal).
 
     After the first plan, refinement runs for ``refine_share`` × the time the first plan took (at
     least half a second); then single-drone replanning (:func:`core.search.improve.shorten`) for
@@ -109,26 +121,32 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
     started = time.perf_counter()
     starts, goals = np.asarray(starts, dtype=np.int64), np.asarray(goals, dtype=np.int64)
     n = len(starts)
-    hops = _rows_per_goal(roadmap.hop_distances, goals)
+    group = np.arange(n) if groups is None else np.unique(np.asarray(groups), return_inverse=True)[1].ravel()
+    hops = _rows_per_goal(roadmap.hop_distances, goals)  # row k: to goals[k]
     metres = _rows_per_goal(roadmap.path_lengths, goals)
-    unreachable = np.nonzero(~np.isfinite(hops[np.arange(n), starts]))[0]
+    hop_table = np.where(np.isfinite(hops), hops, 1e9).astype(np.int64)
+    nearest_goal = _group_minimum(hop_table, group)  # (G, V) hops to the nearest goal of each group
+    unreachable = np.nonzero(nearest_goal[group, starts] >= 1e9)[0]
     if len(unreachable):
         raise LacamFailed("goal cannot be reached on the roadmap", True, unreachable, starts[unreachable])
     # Hops first, metres to break ties between equally many steps.
     scale = float(np.nanmax(np.where(np.isfinite(metres), metres, np.nan))) + 1.0
-    generator = StepGenerator(roadmap, hops + metres / scale, seed)
-    hop_table = np.where(np.isfinite(hops), hops, 1e9).astype(np.int64)
-    rows = np.arange(n)
+    generator = StepGenerator(roadmap, hops + metres / scale, goals, group, seed)
+    goal_index = np.full(roadmap.n_vertices, -1, dtype=np.int64)
+    goal_index[goals] = np.arange(n)
+    goal_group = np.where(goal_index >= 0, group[goal_index], -1)  # (V,) group of the goal there, or -1
 
     def heuristic(config: np.ndarray) -> int:
-        return int(hop_table[rows, config].max())
+        return int(nearest_goal[group, config].max())
 
-    first_priority = hop_table[rows, starts] / (hop_table[rows, starts].max() + 1.0) * 0.5 \
+    def away(config: np.ndarray) -> np.ndarray:
+        return goal_group[config] != group
+
+    first_priority = nearest_goal[group, starts] / (nearest_goal[group, starts].max() + 1.0) * 0.5 \
         + np.random.default_rng(seed).random(n) * 1e-3
-    root = _new_node(starts, None, first_priority, goals, 0, heuristic(starts))
+    root = _new_node(starts, None, first_priority, np.arange(n), goals, 0, heuristic(starts))
     explored: dict[bytes, _Node] = {starts.tobytes(): root}
     open_stack = [root]
-    goal_key = goals.tobytes()
     best: _Node | None = None
     first_steps, first_seconds, deadline = 0, 0.0, started + time_limit
     nearest = root
@@ -145,7 +163,7 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
         if best is not None and node.g + node.h >= best.g:
             open_stack.pop()
             continue
-        if node.config.tobytes() == goal_key:
+        if not away(node.config).any():
             best = node
             if not first_steps:
                 first_steps, first_seconds = node.g, time.perf_counter() - started
@@ -161,9 +179,10 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
             dest, _ = generator.moves(int(node.config[agent]))
             for vertex in generator.rng.permutation(dest).tolist():
                 node.tree.append(_Constraint(constraint, agent, vertex, constraint.depth + 1))
-        successor = generator.step(node.config, node.order, constraint.forced())
-        if successor is None:
+        step = generator.step(node.config, node.order, constraint.forced(), node.targets)
+        if step is None:
             continue
+        successor, targets = step
         key = successor.tobytes()
         known = explored.get(key)
         if known is not None:
@@ -172,15 +191,15 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
             _rewire(node)
             open_stack.append(known)
             continue
-        child = _new_node(successor, node, node.priority, goals, node.g + 1, heuristic(successor))
+        child = _new_node(successor, node, node.priority, targets, goals, node.g + 1, heuristic(successor))
         node.neighbours.add(child)
         child.neighbours.add(node)
         explored[key] = child
-        if child.h < nearest.h or (child.h == nearest.h and _away(child, goals) < _away(nearest, goals)):
+        if child.h < nearest.h or (child.h == nearest.h and away(child.config).sum() < away(nearest.config).sum()):
             nearest = child
         open_stack.append(child)
     if best is None:
-        stuck = np.nonzero(nearest.config != goals)[0]
+        stuck = np.nonzero(away(nearest.config))[0]
         if not open_stack:
             raise LacamFailed("no conflict-free plan exists on this roadmap", True, stuck, nearest.config[stuck])
         raise LacamFailed(f"search stopped after {time_limit:g} s", False, stuck, nearest.config[stuck])
@@ -191,19 +210,21 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, time_limit
         node = node.parent
     configs = np.array(configs[::-1])
     lacam_steps = len(configs) - 1
+    reached = goal_index[best.config]  # (N,) goal index each drone ends on
     now = time.perf_counter()
     budget = min(started + time_limit - now, max(IMPROVE_MIN_SECONDS, improve_share * (now - started)))
     if budget > 0 and (open_stack or best.g > heuristic(starts)):  # else proven optimal at the bound
-        configs = shorten(roadmap, configs, hop_table, budget, cancel)
+        configs = shorten(roadmap, configs, hop_table[reached], budget, cancel)
+    final = goals[reached]
     paths = []
     for i in range(n):
         column = configs[:, i]
-        away = np.nonzero(column != goals[i])[0]
-        end = int(away[-1]) + 1 if len(away) else 0
+        moving = np.nonzero(column != final[i])[0]
+        end = int(moving[-1]) + 1 if len(moving) else 0
         paths.append(tuple(int(v) for v in column[:end + 1]))
     cost = sum(len(p) - 1 for p in paths)
-    return LacamResult(paths, len(configs) - 1, first_steps, lacam_steps, not open_stack, cost,
-                       int(hop_table[rows, starts].sum()), visits, len(explored), time.perf_counter() - started,
+    return LacamResult(paths, final, len(configs) - 1, first_steps, lacam_steps, not open_stack, cost,
+                       int(nearest_goal[group, starts].sum()), visits, len(explored), time.perf_counter() - started,
                        first_seconds)
 
 
@@ -213,19 +234,24 @@ def _rows_per_goal(distances, goals: np.ndarray) -> np.ndarray:
     return distances(unique)[index]
 
 
-def _away(node: _Node, goals: np.ndarray) -> int:
-    return int(np.count_nonzero(node.config != goals))
+def _group_minimum(table: np.ndarray, group: np.ndarray) -> np.ndarray:
+    """``(G, V)`` row-wise minimum of ``table`` ``(N, V)`` over the rows of each group ``(N,)``
+    (labels ``0 … G-1``); with every row its own group, ``table`` itself reordered."""
+    if len(np.unique(group)) == len(group):
+        return table[np.argsort(group)]
+    return np.stack([table[group == g].min(axis=0) for g in range(int(group.max()) + 1)])
 
 
-def _new_node(config: np.ndarray, parent: _Node | None, priority: np.ndarray, goals: np.ndarray, g: int,
-              h: int) -> _Node:
-    """A node whose priorities grow for drones away from their goals (PIBT's rule: the longer a
-    drone has waited to arrive, the higher it ranks; arrived drones drop to their tie-breakers)."""
-    arrived = config == goals
+def _new_node(config: np.ndarray, parent: _Node | None, priority: np.ndarray, targets: np.ndarray,
+              goals: np.ndarray, g: int, h: int) -> _Node:
+    """A node whose priorities grow for drones away from their targets ``goals[targets]`` (PIBT's
+    rule: the longer a drone has waited to arrive, the higher it ranks; arrived drones drop to
+    their tie-breakers)."""
+    arrived = config == goals[targets]
     if parent is not None:
         priority = np.where(arrived, priority - np.floor(priority), priority + 1.0)
     order = np.argsort(-priority, kind="stable")
-    node = _Node(config, parent, order, priority, g, h)
+    node = _Node(config, parent, order, priority, targets, g, h)
     node.tree.append(_Constraint(None, -1, -1, 0))
     return node
 

@@ -15,6 +15,12 @@ the place it is leaving. Two consequences:
 * the inheritance of PIBT becomes a request to make room: when the action a drone wants is blocked
   by drones standing in the way, it takes its best free action now and those drones are served
   next, preferring places that leave the wanted action free for the following step.
+
+Where drones of one group may end on any of the group's goals (unlabeled and grouped
+transitions), a drone blocked by a drone of its group parked on its own goal exchanges goals with
+it, TSWAP's rule (Okumura & Défago, "Solving simultaneous target assignment and path planning
+efficiently with time-independent execution", AIJ 2023): the parked drone is then served next
+with the goal the blocked one came for, so it makes room by moving on towards it.
 """
 
 from __future__ import annotations
@@ -27,13 +33,16 @@ from ..roadmap.graph import Roadmap
 class StepGenerator:
     """Configuration generator for LaCAM on one roadmap and one set of goals.
 
-    ``distance`` ``(N, V)``: each drone's ordering key per vertex (smaller is closer to its goal;
-    ``inf`` where the goal cannot be reached). Actions are the roadmap's (wait at v = v, traverse
-    edge e = V + e).
+    ``distance`` ``(N, V)``: ordering key per goal (row ``k`` for goal vertex ``goals[k]``) and
+    vertex (smaller is closer to that goal; ``inf`` where it cannot be reached). ``groups`` ``(N,)``
+    group index of each goal; drone ``i`` starts out heading for goal ``i``, and two drones whose
+    current goals share a group may exchange them (all groups distinct: labeled, no exchange).
+    Actions are the roadmap's (wait at v = v, traverse edge e = V + e).
     """
 
-    def __init__(self, roadmap: Roadmap, distance: np.ndarray, seed: int = 0):
-        self.roadmap, self.distance = roadmap, distance
+    def __init__(self, roadmap: Roadmap, distance: np.ndarray, goals: np.ndarray, groups: np.ndarray, seed: int = 0):
+        self.roadmap, self.distance, self.goals, self.groups = roadmap, distance, goals, groups
+        self._targets = np.arange(len(goals))
         self.n_actions = roadmap.n_actions
         table = roadmap.action_conflicts
         self.conflict_ptr, self.conflict_cols = table.indptr, table.indices
@@ -58,11 +67,15 @@ class StepGenerator:
     def _row(self, action: int) -> np.ndarray:
         return self.conflict_cols[self.conflict_ptr[action]:self.conflict_ptr[action + 1]]
 
-    def step(self, config: np.ndarray, order: np.ndarray, forced: dict[int, int]) -> np.ndarray | None:
+    def step(self, config: np.ndarray, order: np.ndarray, forced: dict[int, int], targets: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray] | None:
         """The next configuration ``(N,)`` from ``config`` ``(N,)`` (a valid one: no two vertices in
         conflict), serving drones in priority ``order``; ``forced`` fixes some drones' next
-        vertices (LaCAM's constraints). None when the forced moves conflict."""
+        vertices (LaCAM's constraints); ``targets`` ``(N,)`` the goal index each drone heads for.
+        Returns the configuration and the targets after this step's exchanges, or None when the
+        forced moves conflict."""
         n = len(config)
+        self._targets = targets = targets.copy()
         occupied = self.roadmap.conflict_counts(config)
         taken = self._taken
         taken[:] = 0
@@ -83,7 +96,7 @@ class StepGenerator:
             for agent in order.tolist():
                 if nxt[agent] < 0:
                     self._serve(agent, config, nxt, occupied, chosen_actions, wish=None)
-            return nxt
+            return nxt, targets
         finally:
             for a in chosen_actions:
                 taken[self._row(a)] = 0
@@ -95,7 +108,7 @@ class StepGenerator:
         leave that action free)."""
         dest, act = self.moves(int(config[agent]))
         taken = self._taken
-        key = self.distance[agent, dest] + self.rng.random(len(dest)) * 1e-6
+        key = self.distance[self._targets[agent], dest] + self.rng.random(len(dest)) * 1e-6
         if wish is not None:
             self._wanted[self._row(wish)] = True
             key = key + np.where(self._wanted[dest], 1e12, 0.0)  # a wait at dest would block the wish
@@ -112,10 +125,21 @@ class StepGenerator:
         if want == pick or key[want] >= key[pick]:
             return
         wanted = int(act[want])
-        blockers = np.nonzero((nxt < 0) & self._conflicts_with_vertices(wanted, config))[0]
-        for other in blockers.tolist():
+        blockers = np.nonzero((nxt < 0) & self._conflicts_with_vertices(wanted, config))[0].tolist()
+        if dest[pick] == config[agent]:
+            self._exchange_with_parked(agent, blockers, config)
+        for other in blockers:
             if nxt[other] < 0:
                 self._serve(other, config, nxt, occupied, chosen_actions, wish=wanted)
+
+    def _exchange_with_parked(self, agent: int, blockers: list[int], config: np.ndarray) -> None:
+        """TSWAP's exchange: the first of ``blockers`` that stands on its own goal and heads for a
+        goal of ``agent``'s group takes ``agent``'s goal, and ``agent`` takes its."""
+        t = self._targets
+        for other in blockers:
+            if self.groups[t[other]] == self.groups[t[agent]] and config[other] == self.goals[t[other]]:
+                t[agent], t[other] = t[other], t[agent]
+                return
 
     def _conflicts_with_vertices(self, action: int, config: np.ndarray) -> np.ndarray:
         """``(N,)`` whether ``action`` conflicts with a wait at each drone's vertex in ``config``."""
