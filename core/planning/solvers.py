@@ -105,9 +105,9 @@ class LacamSolver:
                    + (f"{r.search_steps} steps" if r.search_steps < r.first_steps else "none shorter")
                    + (" (optimal in steps on this roadmap)" if r.optimal else "")
                    + f"; single-drone replanning: {r.steps} steps")
-        exchanged = int(np.count_nonzero(r.goals != np.asarray(goals)))
         if groups is not None:
-            refined += f"; {exchanged} drones took another goal of their group (TSWAP exchanges)"
+            refined += (f"; {int(np.count_nonzero(r.goals != np.asarray(goals)))} drones took another goal of "
+                        "their group (TSWAP exchanges)")
         return SearchOutcome(r.paths, r.goals, SearchFigures(
             solver=self.name, reason=self.reason, nodes_expanded=r.nodes, nodes_generated=r.configurations,
             low_level_expansions=0, sum_of_costs=r.cost, cost_lower_bound=r.lower_bound, w=None, steps=r.steps,

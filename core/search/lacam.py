@@ -125,7 +125,8 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, groups: np
     hops = _rows_per_goal(roadmap.hop_distances, goals)  # row k: to goals[k]
     metres = _rows_per_goal(roadmap.path_lengths, goals)
     hop_table = np.where(np.isfinite(hops), hops, 1e9).astype(np.int64)
-    nearest_goal = _group_minimum(hop_table, group)  # (G, V) hops to the nearest goal of each group
+    # (G, V) hops to the nearest goal of each group
+    nearest_goal = hop_table if groups is None else _group_minimum(hop_table, group)
     unreachable = np.nonzero(nearest_goal[group, starts] >= 1e9)[0]
     if len(unreachable):
         raise LacamFailed("goal cannot be reached on the roadmap", True, unreachable, starts[unreachable])
@@ -215,7 +216,7 @@ def lacam(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, *, groups: np
     budget = min(started + time_limit - now, max(IMPROVE_MIN_SECONDS, improve_share * (now - started)))
     if budget > 0 and (open_stack or best.g > heuristic(starts)):  # else proven optimal at the bound
         configs = shorten(roadmap, configs, hop_table[reached], budget, cancel)
-    final = goals[reached]
+    final = best.config
     paths = []
     for i in range(n):
         column = configs[:, i]
@@ -236,10 +237,10 @@ def _rows_per_goal(distances, goals: np.ndarray) -> np.ndarray:
 
 def _group_minimum(table: np.ndarray, group: np.ndarray) -> np.ndarray:
     """``(G, V)`` row-wise minimum of ``table`` ``(N, V)`` over the rows of each group ``(N,)``
-    (labels ``0 … G-1``); with every row its own group, ``table`` itself reordered."""
-    if len(np.unique(group)) == len(group):
-        return table[np.argsort(group)]
-    return np.stack([table[group == g].min(axis=0) for g in range(int(group.max()) + 1)])
+    (labels ``0 … G-1``, each used)."""
+    order = np.argsort(group, kind="stable")
+    firsts = np.searchsorted(group[order], np.arange(int(group.max()) + 1))
+    return np.minimum.reduceat(table[order], firsts, axis=0)
 
 
 def _new_node(config: np.ndarray, parent: _Node | None, priority: np.ndarray, targets: np.ndarray,

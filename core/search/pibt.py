@@ -17,10 +17,11 @@ the place it is leaving. Two consequences:
   next, preferring places that leave the wanted action free for the following step.
 
 Where drones of one group may end on any of the group's goals (unlabeled and grouped
-transitions), a drone blocked by a drone of its group parked on its own goal exchanges goals with
-it, TSWAP's rule (Okumura & Défago, "Solving simultaneous target assignment and path planning
-efficiently with time-independent execution", AIJ 2023): the parked drone is then served next
-with the goal the blocked one came for, so it makes room by moving on towards it.
+transitions), a drone that must wait because a drone of its group is parked on its own goal in
+the way exchanges goals with it, TSWAP's rule (Okumura & Défago, "Solving simultaneous target
+assignment and path planning efficiently with time-independent execution", AIJ 2023): the parked
+drone is then served next with the goal the blocked one came for, so it makes room by moving on
+towards it.
 """
 
 from __future__ import annotations
@@ -126,15 +127,15 @@ class StepGenerator:
             return
         wanted = int(act[want])
         blockers = np.nonzero((nxt < 0) & self._conflicts_with_vertices(wanted, config))[0].tolist()
-        if dest[pick] == config[agent]:
+        if dest[pick] == config[agent]:  # exchanging on every block made crowd plans longer (DEVELOPERS.md)
             self._exchange_with_parked(agent, blockers, config)
         for other in blockers:
             if nxt[other] < 0:
                 self._serve(other, config, nxt, occupied, chosen_actions, wish=wanted)
 
     def _exchange_with_parked(self, agent: int, blockers: list[int], config: np.ndarray) -> None:
-        """TSWAP's exchange: the first of ``blockers`` that stands on its own goal and heads for a
-        goal of ``agent``'s group takes ``agent``'s goal, and ``agent`` takes its."""
+        """TSWAP's exchange: the first of ``blockers`` whose goal is in ``agent``'s group and that
+        stands on it takes ``agent``'s goal, and ``agent`` takes its."""
         t = self._targets
         for other in blockers:
             if self.groups[t[other]] == self.groups[t[agent]] and config[other] == self.goals[t[other]]:
