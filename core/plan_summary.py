@@ -30,6 +30,8 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
                      f"{len(t.durations)} pieces")
         if s.refinement:
             lines.append(f"  search refinement: {s.refinement}")
+        lines.append(f"  paths: {base.roadmap_length_m:.1f} m on the roadmap, {base.flown_length_m:.1f} m after "
+                     "straightening")
         lines.append(f"  stop-and-go: {base.duration_s:.2f} s, peak acceleration {base.peak_acceleration:.2f} "
                      f"m/s², ∫|snap|² {base.snap_integral:.4g} m²/s⁷")
         for h in t.smoothing.rounds if t.smoothing else ():

@@ -49,11 +49,15 @@ class SearchFigures:
 
 @dataclass(frozen=True)
 class StopAndGoFigures:
-    """The stop-at-every-waypoint baseline: duration (s), sampled peak acceleration (m/s²), ∫‖snap‖² (m²/s⁷)."""
+    """The stop-at-every-waypoint baseline: duration (s), sampled peak acceleration (m/s²), ∫‖snap‖²
+    (m²/s⁷); and the fleet's summed path length (m) on the roadmap and after string pulling (what
+    the baseline and the smoothing fly)."""
 
     duration_s: float
     peak_acceleration: float
     snap_integral: float
+    roadmap_length_m: float
+    flown_length_m: float
 
 
 @dataclass(frozen=True)

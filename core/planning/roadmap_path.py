@@ -1,6 +1,6 @@
 """Transitions whose straight lines are blocked: assignment by roadmap path length, multi-agent
-search (which may exchange goals within a group), an independent discrete check, the stop-and-go
-baseline, then corridor smoothing."""
+search (which may exchange goals within a group), an independent discrete check, string pulling
+(checked again), the stop-and-go baseline, then corridor smoothing."""
 
 from __future__ import annotations
 
@@ -28,6 +28,7 @@ from .context import PlanningContext
 from .problem import TransitionProblem
 from .results import SmoothingFigures, StopAndGoFigures, TransitionMethod, TransitionResult
 from .solvers import MultiAgentSolver, SearchOutcome, choose_solver
+from .string_pulling import pull_strings
 from .timing import requested_duration
 
 
@@ -101,7 +102,8 @@ def search_on_roadmap(problem: TransitionProblem, assignment: Assignment, contex
 def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bound: float, context: PlanningContext,
                     executor: Executor | None = None, *, progress: ProgressCallback = no_progress,
                     cancel: CancelToken | None = None) -> TransitionResult:
-    """Fly ``problem``'s roadmap ``search``: discrete check, stop-and-go pieces, then smoothing
+    """Fly ``problem``'s roadmap ``search``: discrete check, string pulling
+    (:func:`~.string_pulling.pull_strings`, checked again), stop-and-go pieces, then smoothing
     (per-drone QPs on ``executor``, inline when None) unless the settings turn it off.
     ``lower_bound`` (s) is the straight-line bound reported beside it."""
     attached = context.roadmap(progress, cancel)
@@ -116,9 +118,16 @@ def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bou
         raise PlanningError(f"{problem.where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
                             f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
     positions = _moving_steps(positions)
+    roadmap_length = _fleet_path_length(positions)
+    positions = _moving_steps(pull_strings(positions, context.clearance, context.field))  # a dodge may vanish
+    conflicts = check_discrete_plan(positions, context.clearance)
+    if conflicts:
+        c = conflicts[0]
+        raise PlanningError(f"{problem.where}: the straightened plan check found {len(conflicts)} conflicts (first: "
+                            f"drones {ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
     durations, pieces = _stop_and_go(positions, step_profile(problem.profile, settings.degree), settings.degree,
                                      context.limits)
-    baseline = _baseline_figures(durations, pieces, ids)
+    baseline = _baseline_figures(durations, pieces, ids, roadmap_length, _fleet_path_length(positions))
     method, smoothing = TransitionMethod.STOP_AND_GO, None
     if settings.smoothing and len(durations):
         options = SmoothingOptions(settings.degree, settings.smoothing_iterations, parse_objective(settings.objective))
@@ -203,13 +212,20 @@ def _moving_steps(positions: np.ndarray) -> np.ndarray:
     return positions[:, np.r_[True, moves]]
 
 
-def _baseline_figures(durations: np.ndarray, pieces: np.ndarray, ids) -> StopAndGoFigures:
-    """Duration, sampled peak acceleration and ∫‖snap‖² of stop-and-go pieces."""
+def _fleet_path_length(positions: np.ndarray) -> float:
+    """Summed length (m) of every drone's path through ``positions`` ``(N, K + 1, 3)``."""
+    return float(np.linalg.norm(np.diff(positions, axis=1), axis=2).sum())
+
+
+def _baseline_figures(durations: np.ndarray, pieces: np.ndarray, ids, roadmap_length: float,
+                      flown_length: float) -> StopAndGoFigures:
+    """Duration, sampled peak acceleration and ∫‖snap‖² of stop-and-go pieces, with the fleet's
+    path lengths (m) on the roadmap and after string pulling."""
     if not len(durations):
-        return StopAndGoFigures(0.0, 0.0, 0.0)
+        return StopAndGoFigures(0.0, 0.0, 0.0, roadmap_length, flown_length)
     traj = FleetTrajectory(np.r_[0.0, np.cumsum(durations)], pieces, ids)
     return StopAndGoFigures(float(durations.sum()), float(sampled_peaks(traj)["acceleration"].max()),
-                            trajectory_cost(pieces, durations, {"snap": 1.0}))
+                            trajectory_cost(pieces, durations, {"snap": 1.0}), roadmap_length, flown_length)
 
 
 def _stop_and_go(positions: np.ndarray, profile: Profile, degree: int, limits: np.ndarray

@@ -1,0 +1,139 @@
+"""String pulling of a discrete plan: each drone's zig-zag over roadmap vertices replaced, where it
+can be, by a straight segment flown in the same steps.
+
+A roadmap path bends at every vertex it visits, and the smoothing corridors are built around those
+steps, so a path that zig-zags between samples stays slow however well it is smoothed. For one
+drone at a time, a run of steps ``a … b`` is replaced by the straight segment from its position at
+step ``a`` to its position at step ``b``, the intermediate step ends placed at the same fractions
+of the way as along the old path (a wait stays a wait, and no step gets longer, so no step needs
+more time). The run is accepted when
+
+* the segment keeps at least the smallest obstacle margin the old steps had (capped at
+  :data:`MARGIN_CAP`), so the corridor tubes around it are no tighter, and
+* each new step keeps, to every other drone's step at the same time, at least the separation the
+  old step had (capped at :data:`PAIR_CAP`, never below the clearance), measured between swept
+  segments (the search's own conflict rule: whatever the timing inside the step).
+
+The result still goes through the independent discrete check before anything is flown.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..clearance import ClearanceModel
+from ..geometry import segment_segment_closest
+from ..obstacles import ClearanceField
+
+#: Obstacle margin (envelope-scaled units) beyond which a straighter segment need not keep more.
+MARGIN_CAP = 1.0
+#: Separation ratio beyond which a straighter step need not keep as much room to a neighbour as the
+#: old one had (below it, no pair may come closer than before: tight pairs make slow corridors).
+PAIR_CAP = 1.5
+#: Passes over the fleet (a drone straightened in one pass may free room for another in the next).
+PASSES = 2
+
+
+def pull_strings(positions: np.ndarray, clearance: ClearanceModel, field: ClearanceField | None,
+                 passes: int = PASSES) -> np.ndarray:
+    """``positions`` ``(N, K + 1, 3)`` (m, drone positions at the step ends) with runs of steps
+    straightened as the module docstring says; the ends of every drone stay where they were."""
+    out = np.array(positions, dtype=np.float64, copy=True)
+    n, ends = out.shape[:2]
+    if ends < 3:
+        return out
+    margins = _step_margins(out, field)
+    for _ in range(passes):
+        changed = False
+        for i in range(n):
+            a = 0
+            while a < ends - 2:
+                b = _farthest_run(out, margins, clearance, field, i, a)
+                if b > a + 1 and _straighten(out, i, a, b):
+                    margins[i, a:b] = _margins(field, out[i, a:b], out[i, a + 1:b + 1])
+                    changed = True
+                a = max(b, a + 1)
+        if not changed:
+            break
+    return out
+
+
+def _farthest_run(positions: np.ndarray, margins: np.ndarray, clearance: ClearanceModel,
+                  field: ClearanceField | None, i: int, a: int) -> int:
+    """A step ``b`` > ``a`` such that drone ``i``'s run ``a … b`` can be straightened (``a + 1``
+    where none can): galloping then bisection over ``b``, a few window checks per run."""
+    last = positions.shape[1] - 1
+
+    def straightens(b: int) -> bool:
+        needed = min(float(margins[i, a:b].min()), MARGIN_CAP)
+        return bool(_margins(field, positions[i, a][None], positions[i, b][None])[0] >= needed) and \
+            _run_clear(positions, clearance, i, a, b)
+
+    good, stride = a + 1, 1
+    bad = a + 2
+    while bad <= last and straightens(bad):
+        good, stride = bad, 2 * stride
+        bad = good + stride
+    bad = min(bad, last + 1)
+    while bad - good > 1:
+        middle = (good + bad) // 2
+        good, bad = (middle, bad) if straightens(middle) else (good, middle)
+    return good
+
+
+def _run_clear(positions: np.ndarray, clearance: ClearanceModel, i: int, a: int, b: int) -> bool:
+    """Whether drone ``i`` flying straight from step ``a`` to ``b`` keeps, with every other drone
+    at every step, a separation ratio of at least the smaller of the old one and :data:`PAIR_CAP`
+    (and at least 1). Steps whose bounding boxes stay :data:`PAIR_CAP` pair envelopes apart from the
+    old path's box cannot come closer than that and are not measured."""
+    old = positions[i, a:b + 1]
+    new = _straight(positions[i], a, b)  # on the chord of two old points: inside the old box
+    reach = PAIR_CAP * clearance.pair_envelope
+    low, high = old.min(axis=0) - reach, old.max(axis=0) + reach
+    window = positions[:, a:b + 1]
+    near = np.all((np.minimum(window[:, :-1], window[:, 1:]) <= high)
+                  & (np.maximum(window[:, :-1], window[:, 1:]) >= low), axis=2)  # (N, b - a)
+    near[i] = False
+    j, k = np.nonzero(near)
+    if not len(j):
+        return True
+    r = clearance.radii(np.full(len(j), i), j)
+    q0, q1 = window[j, k] / r, window[j, k + 1] / r
+    before = _gaps(old[k] / r, old[k + 1] / r, q0, q1)
+    after = _gaps(new[k] / r, new[k + 1] / r, q0, q1)
+    return bool(np.all(after >= np.maximum(np.minimum(before, PAIR_CAP), 1.0)))
+
+
+def _gaps(p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray) -> np.ndarray:
+    on_p, on_q = segment_segment_closest(p0, p1, q0, q1)
+    return np.linalg.norm(on_q - on_p, axis=1)
+
+
+def _straight(path: np.ndarray, a: int, b: int) -> np.ndarray:
+    """Positions ``(b - a + 1, 3)`` along the chord from ``path[a]`` to ``path[b]`` at the fractions
+    of the old path's length reached at each step end."""
+    legs = np.linalg.norm(np.diff(path[a:b + 1], axis=0), axis=1)
+    total = legs.sum()
+    fraction = np.r_[0.0, np.cumsum(legs)] / total if total > 0 else np.zeros(b - a + 1)
+    out = path[a] + fraction[:, None] * (path[b] - path[a])
+    out[fraction >= 1.0] = path[b]  # exactly: a wait at the end stays a wait, the goal a formation point
+    return out
+
+
+def _straighten(positions: np.ndarray, i: int, a: int, b: int) -> bool:
+    """Replace drone ``i``'s steps ``a … b`` by the chord; False where they already lie on it."""
+    new = _straight(positions[i], a, b)
+    if np.allclose(new, positions[i, a:b + 1], atol=1e-9):
+        return False
+    positions[i, a:b + 1] = new
+    return True
+
+
+def _step_margins(positions: np.ndarray, field: ClearanceField | None) -> np.ndarray:
+    """Obstacle margins ``(N, K)`` of every step."""
+    n, ends = positions.shape[:2]
+    return _margins(field, positions[:, :-1].reshape(-1, 3), positions[:, 1:].reshape(-1, 3)).reshape(n, ends - 1)
+
+
+def _margins(field: ClearanceField | None, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    return np.full(len(a), np.inf) if field is None else field.segment_margins(a, b)
