@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import signal
 import sys
+from importlib.resources import files
 from pathlib import Path
 
 from PySide6.QtCore import QCoreApplication, Qt, QTimer
@@ -17,7 +18,8 @@ from core.scene import load_scene
 from .document import Document
 from .main_window import MainWindow
 
-DEFAULT_SCENE = Path(__file__).resolve().parents[1] / "sample_scenes" / "bridge_inspection.json"
+#: The sample the designer opens without a scene (package data: present after ``pip install .`` too).
+DEFAULT_SCENE = Path(str(files("sample_scenes") / "bridge_inspection.json"))
 
 
 def create_window(scene_path: Path | None = None) -> MainWindow:

@@ -11,17 +11,23 @@ from core.scene import scene_from_dict
 
 ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
 
-# Qt: a real X server (CI runs pytest under xvfb-run) gives OpenGL; without one, widgets still run
-# on the offscreen platform and the tests that need OpenGL are skipped with that reason.
-os.environ.setdefault("QT_QPA_PLATFORM", "xcb" if os.environ.get("DISPLAY") else "offscreen")
-HAS_OPENGL = os.environ["QT_QPA_PLATFORM"] == "xcb"
+# Qt: a real X server gives OpenGL. pytest-xvfb starts a virtual one when Xvfb is installed (as
+# .ci/run installs it); without an X server, widgets still run on the offscreen platform and the
+# tests that need OpenGL are skipped with that reason. Decided in pytest_configure, after the
+# plugin has set DISPLAY.
+HAS_OPENGL = False
 
 
+@pytest.hookimpl(trylast=True)
 def pytest_configure(config):
-    """Before pytest-qt makes the QApplication: share GL contexts, as the designer does (pyqtgraph
-    caches shader programs, which must outlive the view that compiled them)."""
+    """After pytest-xvfb, before pytest-qt makes the QApplication: pick the Qt platform, and share
+    GL contexts as the designer does (pyqtgraph caches shader programs, which must outlive the view
+    that compiled them)."""
+    global HAS_OPENGL
     from app.main import prepare_qt
 
+    os.environ.setdefault("QT_QPA_PLATFORM", "xcb" if os.environ.get("DISPLAY") else "offscreen")
+    HAS_OPENGL = os.environ["QT_QPA_PLATFORM"] == "xcb"
     prepare_qt()
 
 

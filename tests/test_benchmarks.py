@@ -18,7 +18,7 @@ BENCHMARKS = sorted(p.name for p in (ROOT / "bench").glob("bench_*.py"))
 @pytest.mark.parametrize("name", BENCHMARKS)
 def test_benchmark_runs_at_smoke_size(name, tmp_path):
     if name == "bench_gui.py" and not os.environ.get("DISPLAY"):
-        pytest.skip("the designer benchmark needs an X server (CI runs the suite under xvfb-run)")
+        pytest.skip("the designer benchmark needs an X server: install Xvfb (pytest-xvfb starts it)")
     env = {**os.environ, "SKYLOOM_CACHE_DIR": str(tmp_path), "PYTHONPATH": str(ROOT)}
     done = subprocess.run([sys.executable, str(ROOT / "bench" / name), "--smoke"], cwd=ROOT, env=env,
                           capture_output=True, text=True, timeout=300)

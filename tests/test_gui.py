@@ -1,5 +1,5 @@
 """The designer, driven like a user (pytest-qt). Views without OpenGL run on any Qt platform; the
-window with the 3D view needs an X server with OpenGL (CI: xvfb-run with Mesa)."""
+window with the 3D view needs an X server with OpenGL (pytest-xvfb starts Xvfb with Mesa when installed)."""
 
 import os
 import time
@@ -15,7 +15,8 @@ from core.errors import SkyloomError
 from core.scene import load_scene
 
 SAMPLES = ROOT / "sample_scenes"
-needs_opengl = pytest.mark.skipif(not HAS_OPENGL, reason="needs an X server with OpenGL (run under xvfb-run)")
+needs_opengl = pytest.mark.skipif(not HAS_OPENGL, reason="needs an X server with OpenGL: install Xvfb and Mesa "
+                                  "(see .ci/run); pytest-xvfb then starts one")
 
 
 @pytest.fixture
