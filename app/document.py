@@ -7,6 +7,7 @@ from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
+import shiboken6
 from PySide6.QtCore import QObject, QSettings, Signal
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
@@ -16,6 +17,7 @@ from core.pipeline import PlanResult
 from core.scene import Formation, Scene, load_scene, save_scene
 from core.scene.checks import check_scene
 from core.scene.meshes import SiteMesh, load_site_meshes
+from core.scene.starter import starter_scene
 
 RECENT_KEY = "recent_files"
 RECENT_COUNT = 8
@@ -52,6 +54,8 @@ class Document(QObject):
     time_changed = Signal(float)
     selection_changed = Signal()
     path_changed = Signal()
+    #: The plan stopped (True) or started again (False, by undo) matching the scene as edited.
+    plan_stale_changed = Signal(bool)
     formation_chosen = Signal(str)
     message = Signal(str)
 
@@ -68,6 +72,7 @@ class Document(QObject):
         self._settings = settings or QSettings("Skyloom", "Designer")
         self._meshes: tuple[SiteMesh, ...] | None = None
         self._mesh_site = None
+        self._stale = False
 
     # --- files -------------------------------------------------------------------------------
     @property
@@ -77,10 +82,29 @@ class Document(QObject):
     def open(self, path: Path) -> None:
         """Load ``path`` (raises :class:`SkyloomError` with the reason; the open scene stays)."""
         scene = load_scene(path)
-        self.undo_stack.clear()
-        self.path = Path(path)
-        self.plan, self.approaches = None, []
+        self._reset(scene, Path(path))
         self._remember(self.path)
+
+    def new(self) -> None:
+        """Start a new scene without a file (:func:`core.scene.starter.starter_scene`)."""
+        self._reset(starter_scene(), None)
+
+    @property
+    def unsaved(self) -> bool:
+        """Whether the scene has edits that are not in its file (False once Qt has deleted the undo
+        stack: a title update can still arrive while the interpreter tears the window down)."""
+        return shiboken6.isValid(self.undo_stack) and not self.undo_stack.isClean()
+
+    @property
+    def plan_is_current(self) -> bool:
+        """Whether there is a plan and it was made for the scene exactly as it is now (an edit
+        makes the plan stale: it is not verified for the edited scene and is not exported)."""
+        return self.plan is not None and self.plan.scene == self.scene
+
+    def _reset(self, scene: Scene, path: Path | None) -> None:
+        self.undo_stack.clear()
+        self.path = path
+        self.plan, self.approaches = None, []
         self._show_scene(scene)
         self.plan_changed.emit()
         self.path_changed.emit()
@@ -158,6 +182,13 @@ class Document(QObject):
             self.active_formation = scene.formations[0].name
             self.formation_chosen.emit(self.active_formation)
         self.scene_changed.emit()
+        self._update_stale()
+
+    def _update_stale(self) -> None:
+        stale = self.plan is not None and not self.plan_is_current
+        if stale != self._stale:
+            self._stale = stale
+            self.plan_stale_changed.emit(stale)
 
     # --- plan, time, selection ---------------------------------------------------------------
     def set_plan(self, result: PlanResult, approaches: list[Approach] | None = None) -> None:
@@ -168,6 +199,7 @@ class Document(QObject):
             closest_approaches(result.trajectory, result.scene.fleet.clearance)
         self.time = min(self.time, result.trajectory.duration)
         self.plan_changed.emit()
+        self._update_stale()
         self.time_changed.emit(self.time)
 
     def set_time(self, t: float) -> None:

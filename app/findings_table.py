@@ -62,6 +62,7 @@ class FindingsTable(QWidget):
         layout.addWidget(self.table, 1)
         self.table.cellClicked.connect(lambda row, _col: self.activate(row))
         document.plan_changed.connect(self.refresh)
+        document.plan_stale_changed.connect(self.refresh)
         self.refresh()
 
     def refresh(self) -> None:
@@ -71,6 +72,8 @@ class FindingsTable(QWidget):
             self.summary.setText("No plan yet.")
         else:
             verdict = "Verification PASSED" if plan.verified else "Verification FAILED"
+            if not self.document.plan_is_current:
+                verdict = f"Plan out of date (scene edited since); for the scene before the edits: {verdict}"
             n_bad = sum(r.severity != "close approach" for r in self.rows)
             self.summary.setText(f"{verdict}: {n_bad} problems; {len(self.rows) - n_bad} drone pairs came "
                                  f"within {APPROACH_BAND:g}× the clearance (sampled).")

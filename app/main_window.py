@@ -13,6 +13,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QMainWindow,
     QMessageBox,
+    QPlainTextEdit,
     QProgressBar,
     QPushButton,
     QTabWidget,
@@ -39,6 +40,9 @@ from .time_bar import TimeBar
 from .timeline_panel import TimelinePanel
 
 SCENE_FILTER = "Skyloom scenes (*.json)"
+#: First lines of the plan summary while the plan does not match the scene as edited.
+STALE_NOTE = ("PLAN OUT OF DATE: the scene was edited after this plan was made. What follows was verified "
+              "for the scene before those edits, not for the scene as it is now; plan again (F5).")
 
 
 class MainWindow(QMainWindow):
@@ -66,8 +70,8 @@ class MainWindow(QMainWindow):
         self.planner = PlannerPanel(document)
         self.plots = MotionPlots(document)
         self.findings = FindingsTable(document)
-        self.summary = QLabel(wordWrap=True)
-        self.summary.setAlignment(Qt.AlignmentFlag.AlignTop)
+        self.summary = QPlainTextEdit(readOnly=True)  # selectable and copyable
+        self.summary.setLineWrapMode(QPlainTextEdit.LineWrapMode.WidgetWidth)
         left = QTabWidget()
         for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.fleet, "Fleet"),
                              (self.planner, "Planner")):
@@ -99,10 +103,13 @@ class MainWindow(QMainWindow):
         self.findings.focus_requested.connect(self._focus_drones)
         document.message.connect(self._show_error)
         document.plan_changed.connect(self._show_summary)
+        document.plan_stale_changed.connect(self._show_summary)
+        document.plan_stale_changed.connect(self._update_title)
         document.path_changed.connect(self._update_title)
         document.undo_stack.cleanChanged.connect(self._update_title)
         document.formation_chosen.connect(self.site.show_formation)
         self._update_title()
+        self._show_summary()
         self.resize(1500, 950)
         self.resizeDocks([inspect], [420], Qt.Orientation.Vertical)
 
@@ -117,6 +124,7 @@ class MainWindow(QMainWindow):
 
     def _menus(self) -> None:
         file_menu = self.menuBar().addMenu("&File")
+        self._action(file_menu, "&New scene", self.new_scene, QKeySequence.StandardKey.New)
         self._action(file_menu, "&Open…", self.open_dialog, QKeySequence.StandardKey.Open)
         self.recent_menu = file_menu.addMenu("Open &recent")
         self.recent_menu.aboutToShow.connect(self._fill_recent)
@@ -163,9 +171,35 @@ class MainWindow(QMainWindow):
         return True
 
     def open_dialog(self) -> None:
+        if not self.may_discard_edits("opening another scene"):
+            return
         path, _ = QFileDialog.getOpenFileName(self, "Open scene", str(self.document.base_dir), SCENE_FILTER)
         if path:
             self.open_path(Path(path))
+
+    def new_scene(self) -> None:
+        """Replace the open scene by the starter scene (after asking about unsaved edits)."""
+        if not self.may_discard_edits("starting a new scene"):
+            return
+        self.document.new()
+        self.site.frame_all()
+        self.layout_view.frame()
+        self.statusBar().showMessage("new scene: eight drones from the ground to a hover ring; edit it and "
+                                     "save it under a name", 8000)
+
+    def may_discard_edits(self, doing: str) -> bool:
+        """True when the scene has no unsaved edits, or the user saved them or chose to discard
+        them before ``doing`` (e.g. "closing the designer"); False when they cancelled."""
+        if not self.document.unsaved:
+            return True
+        buttons = QMessageBox.StandardButton
+        answer = QMessageBox.question(
+            self, "Unsaved changes", f"The scene has edits that are not saved. Save them before {doing}?",
+            buttons.Save | buttons.Discard | buttons.Cancel, buttons.Save)
+        if answer == buttons.Save:
+            self.save()
+            return not self.document.unsaved  # a cancelled "Save as" keeps the edits and the scene
+        return answer == buttons.Discard
 
     def save(self) -> None:
         if self.document.path is None:
@@ -189,11 +223,16 @@ class MainWindow(QMainWindow):
     def _fill_recent(self) -> None:
         self.recent_menu.clear()
         for path in self.document.recent_files():
-            self.recent_menu.addAction(path, lambda p=path: self.open_path(Path(p)))
+            self.recent_menu.addAction(path, lambda p=path: self.may_discard_edits("opening another scene")
+                                       and self.open_path(Path(p)))
 
     def export(self) -> None:
         if self.document.plan is None:
             self._show_error("Plan the scene before exporting.")
+            return
+        if not self.document.plan_is_current:
+            self._show_error("The scene was edited after this plan was made, so the plan is not verified for the "
+                             "scene as it is now. Plan again (F5) before exporting, or undo the edits.")
             return
         stem = self.document.path.stem if self.document.path else self.document.scene.name
         protect = [self.document.path] if self.document.path else []
@@ -227,9 +266,12 @@ class MainWindow(QMainWindow):
 
     def _show_summary(self) -> None:
         plan = self.document.plan
-        if plan is not None:
-            lines = [*plan.report.summary_lines(), "", *plan_summary_lines(plan), "", f"Safety: {SAFETY_CAUTION}"]
-            self.summary.setText("\n".join(lines))
+        if plan is None:
+            self.summary.setPlainText("No plan yet: press Plan (F5).")
+            return
+        stale = [] if self.document.plan_is_current else [STALE_NOTE, ""]
+        lines = [*stale, *plan.report.summary_lines(), "", *plan_summary_lines(plan), "", f"Safety: {SAFETY_CAUTION}"]
+        self.summary.setPlainText("\n".join(lines))
 
     def _focus_drones(self, drones: tuple) -> None:
         plan = self.document.plan
@@ -251,10 +293,14 @@ class MainWindow(QMainWindow):
 
     def _update_title(self, *_args) -> None:
         name = self.document.path.name if self.document.path else self.document.scene.name
-        dirty = "" if self.document.undo_stack.isClean() else " *"
-        self.setWindowTitle(f"Skyloom designer — {name}{dirty}")
+        dirty = " *" if self.document.unsaved else ""
+        stale = "" if self.document.plan is None or self.document.plan_is_current else " — plan out of date"
+        self.setWindowTitle(f"Skyloom designer — {name}{dirty}{stale}")
 
     def closeEvent(self, event):  # noqa: N802 - Qt's name
+        if not self.may_discard_edits("closing the designer"):
+            event.ignore()
+            return
         if self.runner.running:
             self.runner.cancel()
             self.runner.wait()

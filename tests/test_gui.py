@@ -19,6 +19,23 @@ needs_opengl = pytest.mark.skipif(not HAS_OPENGL, reason="needs an X server with
                                   "(see .ci/run); pytest-xvfb then starts one")
 
 
+@pytest.fixture(autouse=True)
+def unsaved_prompt(monkeypatch):
+    """Answers the designer's unsaved-changes question (Discard unless a test sets ``answer``) and
+    records the questions: a real modal box would wait for a click forever."""
+    from types import SimpleNamespace
+
+    from PySide6.QtWidgets import QMessageBox
+    asked = SimpleNamespace(questions=[], answer=QMessageBox.StandardButton.Discard)
+
+    def question(parent, title, text, buttons, default):
+        asked.questions.append(text)
+        return asked.answer
+
+    monkeypatch.setattr(QMessageBox, "question", staticmethod(question))
+    return asked
+
+
 @pytest.fixture
 def settings(tmp_path):
     return QSettings(str(tmp_path / "designer.ini"), QSettings.Format.IniFormat)
@@ -174,8 +191,8 @@ def make_window(qtbot, settings):
     from app.main_window import MainWindow
     made = []
 
-    def make(name="bridge_inspection.json"):
-        path = SAMPLES / name
+    def make(name="bridge_inspection.json", folder=SAMPLES):
+        path = Path(folder) / name
         doc = Document(load_scene(path), path, settings)
         doc.workers = 1
         w = MainWindow(doc)
@@ -209,7 +226,7 @@ def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, m
     _plan(qtbot, window)
     doc = window.document
     assert doc.plan is not None and doc.plan.verified, getattr(window, "last_error", "")
-    assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.text()
+    assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.toPlainText()
     table = window.findings.table
     assert table.rowCount() > 0 and "PASSED" in window.findings.summary.text()
     row = table.rowCount() - 1
@@ -392,3 +409,79 @@ def test_an_error_escaping_a_slot_is_logged_not_printed(qtbot, capsys, monkeypat
     assert "Traceback" not in err and "internal error in the designer (ZeroDivisionError)" in err
     log = Path(shown[0].rsplit("\n", 1)[1])
     assert "Traceback" in log.read_text() and "deliberate" in log.read_text()
+
+
+@needs_opengl
+def test_an_edit_makes_the_plan_stale_everywhere_and_export_refuses_it(qtbot, make_window, monkeypatch):
+    from dataclasses import replace
+
+    from app import main_window
+    opened = []
+
+    class Recorder:
+        def __init__(self, *args):
+            opened.append(args)
+
+        def exec(self):
+            return False
+
+    monkeypatch.setattr(main_window, "ExportDialog", Recorder)
+    window = make_window("lab_eight.json")
+    _plan(qtbot, window)
+    doc = window.document
+    assert doc.plan_is_current and "out of date" not in window.windowTitle()
+    scene = doc.scene
+    doc.edit(replace(scene, planner=replace(scene.planner, smoothing_iterations=2)), "fewer rounds")
+    assert not doc.plan_is_current and doc.plan is not None
+    assert window.windowTitle().endswith("— plan out of date")
+    assert window.summary.toPlainText().startswith("PLAN OUT OF DATE")
+    assert window.findings.summary.text().startswith("Plan out of date")
+    window.export()
+    assert not opened and "edited after this plan" in window.last_error
+    doc.undo_stack.undo()  # back to the planned scene: the plan is current again
+    assert doc.plan_is_current and "out of date" not in window.windowTitle()
+    assert "OUT OF DATE" not in window.summary.toPlainText()
+    window.export()
+    assert len(opened) == 1
+
+
+@needs_opengl
+def test_unsaved_edits_are_asked_about_before_new_open_and_close(qtbot, make_window, unsaved_prompt, tmp_path):
+    import shutil
+    from dataclasses import replace
+
+    from PySide6.QtWidgets import QMessageBox
+    for name in ("lab_eight.json", "cube.csv"):
+        shutil.copy(SAMPLES / name, tmp_path / name)
+    window = make_window("lab_eight.json", tmp_path)
+    doc = window.document
+    window.new_scene()  # nothing unsaved: no question
+    assert unsaved_prompt.questions == [] and doc.path is None and doc.scene.name == "Untitled scene"
+    window.open_path(tmp_path / "lab_eight.json")
+    scene = doc.scene
+    edited = replace(scene, planner=replace(scene.planner, smoothing_iterations=2))
+    doc.edit(edited, "fewer rounds")
+    buttons = QMessageBox.StandardButton
+    unsaved_prompt.answer = buttons.Cancel
+    window.new_scene()
+    assert doc.scene is edited and doc.unsaved
+    assert not window.close() and window.isVisible()  # closing cancelled: the window stays
+    assert len(unsaved_prompt.questions) == 2 and "closing the designer" in unsaved_prompt.questions[-1]
+    unsaved_prompt.answer = buttons.Save  # saved to its file, then replaced by the new scene
+    window.new_scene()
+    assert load_scene(tmp_path / "lab_eight.json").planner.smoothing_iterations == 2
+    assert doc.path is None and len(doc.scene.fleet.drones) == 8 and not doc.unsaved
+    doc.edit(replace(doc.scene, name="my show"), "rename")
+    unsaved_prompt.answer = buttons.Discard
+    assert window.close()
+    assert len(unsaved_prompt.questions) == 4
+
+
+@needs_opengl
+def test_the_new_scene_plans_and_verifies_in_the_designer(qtbot, make_window):
+    window = make_window("lab_eight.json")
+    window.new_scene()
+    _plan(qtbot, window)
+    doc = window.document
+    assert doc.plan is not None and doc.plan.verified and doc.plan_is_current, getattr(window, "last_error", "")
+    assert window.windowTitle() == "Skyloom designer — Untitled scene"

@@ -143,3 +143,16 @@ def test_missing_mesh_file_is_named(tmp_path):
     far = trimesh.transformations.translation_matrix([2000.0, 2000.0, 2000.0])  # cm: 20 m from every point
     trimesh.creation.box((10.0, 10.0, 10.0), transform=far).export(tmp_path / "meshes" / "bridge.stl")
     assert scene_from_dict(data, source="s.json", base_dir=tmp_path).site.meshes[0].units == "cm"
+
+
+def test_the_starter_scene_passes_the_scene_checks_and_plans_verified():
+    """The designer's New scene must be plannable as it is: the independent verifier passes it."""
+    from core.pipeline import plan
+    from core.scene.checks import check_scene
+    from core.scene.starter import STARTER_DRONES, STARTER_NAME, starter_scene
+
+    scene = starter_scene()
+    assert scene.name == STARTER_NAME and len(scene.fleet.drones) == STARTER_DRONES
+    assert check_scene(scene, "new scene", ROOT, None) == []
+    result = plan(scene)
+    assert result.verified and len(result.transitions) == 1
