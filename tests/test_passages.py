@@ -106,6 +106,13 @@ def test_pillar_field_grids_follow_the_pillars_not_their_bounding_box():
     exact = -trimesh.proximity.signed_distance(scaled, points / axes) - 1.0
     margin = field.margin_parts(points)[-1]
     assert (exact < 0).sum() > 250 and not np.any(margin[exact < 0] >= 0)
+    # The grids queried together give exactly what asking every grid about every point gives.
+    from core.obstacles.field import _lower_bound_over
+    far = rng.uniform(volume[0], volume[1], size=(3000, 3))
+    for probe in (points, far):
+        scaled_probe = probe / axes
+        each = np.min([g.lower_bound(scaled_probe) for g in field.grids], axis=0)
+        assert np.array_equal(_lower_bound_over(field.grids, scaled_probe), each)
 
 
 @pytest.mark.slow

@@ -93,3 +93,20 @@ def test_a_shortcut_through_a_waiting_drone_is_refused():
     gap = np.linalg.norm((pulled[0] - hover[0]) / model.radii(np.array([0]), np.array([1])), axis=1)
     assert gap.min() >= 1.0
     assert _step_lengths(pulled[:1]).sum() <= _step_lengths(detour[None]).sum() + 1e-12
+
+
+def test_range_boxes_match_the_brute_force_bounding_boxes():
+    """The sparse table's box over step ends a … b equals numpy's min / max over that slice, also
+    after a drone's path changes."""
+    from core.planning.string_pulling import _RangeBoxes
+
+    rng = np.random.default_rng(2)
+    positions = rng.normal(size=(5, 23, 3))
+    boxes = _RangeBoxes(positions)
+    positions[3] = rng.normal(size=(23, 3))
+    boxes.update(3, positions[3])
+    for a, b in [(0, 22), (0, 0), (4, 5), (7, 19), (21, 22), *rng.integers(0, 23, size=(30, 2))]:
+        a, b = sorted((int(a), int(b)))
+        low, high = boxes.over(a, b)
+        assert np.array_equal(low, positions[:, a:b + 1].min(axis=1))
+        assert np.array_equal(high, positions[:, a:b + 1].max(axis=1))

@@ -80,8 +80,7 @@ class ClearanceField:
         parts = [np.minimum(scaled - lo, hi - scaled).min(axis=1)]
         parts += [box_distance_ratio(points, box, self.semi_axes) - 1.0 for box in self.keep_out]
         for k, grids in enumerate(self.mesh_grids):
-            bound = np.min([g.lower_bound(scaled) for g in grids], axis=0) - 1.0 if grids else \
-                np.full(len(points), np.inf)
+            bound = _lower_bound_over(grids, scaled) - 1.0 if grids else np.full(len(points), np.inf)
             if exact and grids:
                 # Undecided: the bound is < 0 but within the grids' two-sided error of 0, and > −1,
                 # so the point is outside the mesh (inside a watertight mesh the bound is ≤ −1).
@@ -152,6 +151,34 @@ class ClearanceField:
         points = a[row] + frac[:, None] * (b - a)[row]
         bound = self.margin_parts(points, exact)[1:].min(axis=0) - 0.5 * (length[row] / n[row])
         return np.minimum.reduceat(bound, offsets)
+
+
+#: Grid count × point count handled in one array when a mesh's grids are queried together.
+QUERY_BLOCK = 1 << 20
+
+
+def _lower_bound_over(grids: list[MeshDistanceGrid], points: np.ndarray) -> np.ndarray:
+    """``min`` over ``grids`` of their lower bounds ``(M,)`` for scaled ``points`` ``(M, 3)``, as
+    :meth:`MeshDistanceGrid.lower_bound` gives them, without asking every grid about every point:
+    the distances to all grids' boxes come in one array, and only the grids with points near
+    their (padded) extent look those points up."""
+    bounds = np.stack([g.bounds for g in grids])  # (G, 2, 3)
+    origin = np.stack([g.origin for g in grids])
+    extent = origin + np.array([g.shape for g in grids]) * np.array([g.pitch for g in grids])[:, None]
+    out = np.full(len(points), np.inf)
+    block = max(1, QUERY_BLOCK // max(len(points), 1))
+    for first in range(0, len(grids), block):
+        part = slice(first, first + block)
+        p = points[:, None, :]
+        gap = np.maximum(bounds[part, 0] - p, 0.0) + np.maximum(p - bounds[part, 1], 0.0)
+        distance = np.linalg.norm(gap, axis=-1)  # (M, g): the bound outside a grid's extent
+        # Slack of one scaled unit: the grid's own index test decides near its extent's faces.
+        near = np.all((p >= origin[part] - 1.0) & (p <= extent[part] + 1.0), axis=-1)
+        for g in np.nonzero(near.any(axis=0))[0]:
+            rows = np.nonzero(near[:, g])[0]
+            distance[rows, g] = grids[first + g].lower_bound(points[rows])
+        out = np.minimum(out, distance.min(axis=1))
+    return out
 
 
 #: Meshes with more connected parts than this get one grid (grouping them would cost more than it saves).

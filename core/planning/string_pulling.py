@@ -29,7 +29,7 @@ from ..obstacles import ClearanceField
 MARGIN_CAP = 1.0
 #: Separation ratio beyond which a straighter step need not keep as much room to a neighbour as the
 #: old one had (below it, no pair may come closer than before: tight pairs make slow corridors).
-PAIR_CAP = 1.5
+PAIR_CAP = 1.2
 #: Passes over the fleet (a drone straightened in one pass may free room for another in the next).
 PASSES = 2
 
@@ -43,22 +43,57 @@ def pull_strings(positions: np.ndarray, clearance: ClearanceModel, field: Cleara
     if ends < 3:
         return out
     margins = _step_margins(out, field)
+    boxes = _RangeBoxes(out)
     for _ in range(passes):
         changed = False
         for i in range(n):
             a = 0
             while a < ends - 2:
-                b = _farthest_run(out, margins, clearance, field, i, a)
+                b = _farthest_run(out, margins, boxes, clearance, field, i, a)
                 if b > a + 1 and _straighten(out, i, a, b):
                     margins[i, a:b] = _margins(field, out[i, a:b], out[i, a + 1:b + 1])
+                    boxes.update(i, out[i])
                     changed = True
                 a = max(b, a + 1)
         if not changed:
             break
+    out[:, [0, -1]] = positions[:, [0, -1]]  # bit for bit: starts and goals are formation points
     return out
 
 
-def _farthest_run(positions: np.ndarray, margins: np.ndarray, clearance: ClearanceModel,
+class _RangeBoxes:
+    """Per drone, the bounding box of its positions over any range of step ends in one lookup: a
+    sparse table whose level ``l`` holds the boxes of ``2^l`` consecutive step ends (two
+    overlapping entries cover any range)."""
+
+    def __init__(self, positions: np.ndarray):
+        self.low, self.high = [positions.copy()], [positions.copy()]
+        span = 1
+        while 2 * span <= positions.shape[1]:
+            low, high = self.low[-1], self.high[-1]
+            self.low.append(np.minimum(low[:, :-span], low[:, span:]))
+            self.high.append(np.maximum(high[:, :-span], high[:, span:]))
+            span *= 2
+
+    def update(self, i: int, path: np.ndarray) -> None:
+        """Drone ``i`` now flies ``path`` ``(K + 1, 3)``."""
+        self.low[0][i], self.high[0][i] = path, path
+        span = 1
+        for level in range(1, len(self.low)):
+            low, high = self.low[level - 1][i], self.high[level - 1][i]
+            self.low[level][i] = np.minimum(low[:-span], low[span:])
+            self.high[level][i] = np.maximum(high[:-span], high[span:])
+            span *= 2
+
+    def over(self, a: int, b: int) -> tuple[np.ndarray, np.ndarray]:
+        """Lower and upper corners ``(N, 3)`` of every drone's box over step ends ``a … b``."""
+        level = (b - a + 1).bit_length() - 1
+        other = b - (1 << level) + 1
+        return (np.minimum(self.low[level][:, a], self.low[level][:, other]),
+                np.maximum(self.high[level][:, a], self.high[level][:, other]))
+
+
+def _farthest_run(positions: np.ndarray, margins: np.ndarray, boxes: _RangeBoxes, clearance: ClearanceModel,
                   field: ClearanceField | None, i: int, a: int) -> int:
     """A step ``b`` > ``a`` such that drone ``i``'s run ``a … b`` can be straightened (``a + 1``
     where none can): galloping then bisection over ``b``, a few window checks per run."""
@@ -67,7 +102,7 @@ def _farthest_run(positions: np.ndarray, margins: np.ndarray, clearance: Clearan
     def straightens(b: int) -> bool:
         needed = min(float(margins[i, a:b].min()), MARGIN_CAP)
         return bool(_margins(field, positions[i, a][None], positions[i, b][None])[0] >= needed) and \
-            _run_clear(positions, clearance, i, a, b)
+            _run_clear(positions, boxes, clearance, i, a, b)
 
     good, stride = a + 1, 1
     bad = a + 2
@@ -81,24 +116,33 @@ def _farthest_run(positions: np.ndarray, margins: np.ndarray, clearance: Clearan
     return good
 
 
-def _run_clear(positions: np.ndarray, clearance: ClearanceModel, i: int, a: int, b: int) -> bool:
+def _run_clear(positions: np.ndarray, boxes: _RangeBoxes, clearance: ClearanceModel, i: int, a: int, b: int) -> bool:
     """Whether drone ``i`` flying straight from step ``a`` to ``b`` keeps, with every other drone
     at every step, a separation ratio of at least the smaller of the old one and :data:`PAIR_CAP`
-    (and at least 1). Steps whose bounding boxes stay :data:`PAIR_CAP` pair envelopes apart from the
-    old path's box cannot come closer than that and are not measured."""
+    (and at least 1). Drones whose boxes over the run, and steps whose boxes, stay :data:`PAIR_CAP`
+    pair envelopes away from the old path's (the step's old and new segments') box cannot come
+    closer than that and are not measured."""
     old = positions[i, a:b + 1]
     new = _straight(positions[i], a, b)  # on the chord of two old points: inside the old box
     reach = PAIR_CAP * clearance.pair_envelope
     low, high = old.min(axis=0) - reach, old.max(axis=0) + reach
-    window = positions[:, a:b + 1]
-    near = np.all((np.minimum(window[:, :-1], window[:, 1:]) <= high)
-                  & (np.maximum(window[:, :-1], window[:, 1:]) >= low), axis=2)  # (N, b - a)
-    near[i] = False
-    j, k = np.nonzero(near)
-    if not len(j):
+    others_low, others_high = boxes.over(a, b)
+    others = np.nonzero(np.all((others_low <= high) & (others_high >= low), axis=1))[0]
+    others = others[others != i]
+    if not len(others):
         return True
+    window = positions[others, a:b + 1]
+    # Per step, the box of the old and the new segment, widened by the reach.
+    step_low = np.minimum(np.minimum(old[:-1], old[1:]), np.minimum(new[:-1], new[1:])) - reach
+    step_high = np.maximum(np.maximum(old[:-1], old[1:]), np.maximum(new[:-1], new[1:])) + reach
+    near = np.all((np.minimum(window[:, :-1], window[:, 1:]) <= step_high)
+                  & (np.maximum(window[:, :-1], window[:, 1:]) >= step_low), axis=2)  # (M, b - a)
+    m, k = np.nonzero(near)
+    if not len(m):
+        return True
+    j = others[m]
     r = clearance.radii(np.full(len(j), i), j)
-    q0, q1 = window[j, k] / r, window[j, k + 1] / r
+    q0, q1 = window[m, k] / r, window[m, k + 1] / r
     before = _gaps(old[k] / r, old[k + 1] / r, q0, q1)
     after = _gaps(new[k] / r, new[k + 1] / r, q0, q1)
     return bool(np.all(after >= np.maximum(np.minimum(before, PAIR_CAP), 1.0)))
@@ -112,9 +156,10 @@ def _gaps(p0: np.ndarray, p1: np.ndarray, q0: np.ndarray, q1: np.ndarray) -> np.
 def _straight(path: np.ndarray, a: int, b: int) -> np.ndarray:
     """Positions ``(b - a + 1, 3)`` along the chord from ``path[a]`` to ``path[b]`` at the fractions
     of the old path's length reached at each step end."""
-    legs = np.linalg.norm(np.diff(path[a:b + 1], axis=0), axis=1)
-    total = legs.sum()
-    fraction = np.r_[0.0, np.cumsum(legs)] / total if total > 0 else np.zeros(b - a + 1)
+    walked = np.r_[0.0, np.cumsum(np.linalg.norm(np.diff(path[a:b + 1], axis=0), axis=1))]
+    # Divided by the last cumulative sum itself, the end of the walk (and every wait after it) is
+    # exactly 1 (a separately summed total can differ from it in the last bit).
+    fraction = walked / walked[-1] if walked[-1] > 0 else np.zeros(b - a + 1)
     out = path[a] + fraction[:, None] * (path[b] - path[a])
     out[fraction >= 1.0] = path[b]  # exactly: a wait at the end stays a wait, the goal a formation point
     return out
