@@ -1,5 +1,5 @@
 """Formations: choose the one being laid out, add new ones, fill one from a generator (grid, ring,
-line) or a CSV file."""
+line, sphere) or a CSV file."""
 
 from __future__ import annotations
 
@@ -37,7 +37,7 @@ def _spin(value: float, low: float = -10000.0, high: float = 10000.0, suffix: st
 class GeneratorBox(QGroupBox):
     """Parameters of one generator at a time; :meth:`points` returns ``(n, 3)`` metres."""
 
-    KINDS = ("grid", "ring", "line")
+    KINDS = ("grid", "ring", "line", "sphere")
 
     def __init__(self, parent=None):
         super().__init__("Fill with a pattern", parent)
@@ -48,9 +48,10 @@ class GeneratorBox(QGroupBox):
         self.grid_spacing, self.grid_columns = _spin(2.0, 0.01), QSpinBox(minimum=0, maximum=10_000, value=0,
                                                                           specialValueText="square")
         self.ring_radius = _spin(5.0, 0.01)
+        self.sphere_radius = _spin(5.0, 0.01)
         self.centre = [_spin(0.0), _spin(0.0), _spin(3.0)]
         self.line_end = [_spin(10.0), _spin(0.0), _spin(3.0)]
-        grid_page, ring_page, line_page = QWidget(), QWidget(), QWidget()
+        grid_page, ring_page, line_page, sphere_page = QWidget(), QWidget(), QWidget(), QWidget()
         QFormLayout(grid_page).addRow("spacing", self.grid_spacing)
         grid_page.layout().addRow("columns", self.grid_columns)
         QFormLayout(ring_page).addRow("radius", self.ring_radius)
@@ -58,7 +59,8 @@ class GeneratorBox(QGroupBox):
         for w in self.line_end:
             end_row.addWidget(w)
         QFormLayout(line_page).addRow("to", end_row)
-        for page in (grid_page, ring_page, line_page):
+        QFormLayout(sphere_page).addRow("radius", self.sphere_radius)
+        for page in (grid_page, ring_page, line_page, sphere_page):
             self.pages.addWidget(page)
         self.kind.currentIndexChanged.connect(self.pages.setCurrentIndex)
         centre_row = QHBoxLayout()
@@ -81,6 +83,8 @@ class GeneratorBox(QGroupBox):
             return formations.grid(n, self.grid_spacing.value(), origin=origin, columns=columns)
         if kind == "ring":
             return formations.ring(n, self.ring_radius.value(), center=origin)
+        if kind == "sphere":
+            return formations.sphere(n, self.sphere_radius.value(), center=origin)
         return formations.line(n, origin, [w.value() for w in self.line_end])
 
 
@@ -107,9 +111,14 @@ class FormationPanel(QWidget):
         self.generator.apply.clicked.connect(self.apply_generator)
         document.scene_changed.connect(self.refresh)
         document.formation_chosen.connect(self.refresh)
+        self._fleet_size = -1
         self.refresh()
 
     def refresh(self, *_args) -> None:
+        drones = len(self.document.scene.fleet.drones)
+        if drones != self._fleet_size:  # a pattern makes one point per drone unless the user says otherwise
+            self._fleet_size = drones
+            self.generator.count.setValue(drones)
         names = [f.name for f in self.document.scene.formations]
         self.list.blockSignals(True)
         self.list.clear()

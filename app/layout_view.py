@@ -95,6 +95,7 @@ class ProjectionPlot(pg.PlotWidget):
         self.axes = axes
         self.points = np.zeros((0, 3))
         self.setAspectLocked(axes == (0, 1))  # true shapes from above; the side view stretches heights
+        self.getPlotItem().setMenuEnabled(False, enableViewBoxMenu=False)  # right-click: no plotting-library menu
         self.showGrid(x=True, y=True, alpha=0.25)
         self.setLabel("bottom", "x", units="m")
         self.setLabel("left", "y" if axes[1] == 1 else "z", units="m")

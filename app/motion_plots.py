@@ -32,6 +32,7 @@ class MotionPlots(QWidget):
             plot = self.layout_widget.addPlot(row=row, col=0)
             plot.setLabel("left", name, units=unit)
             plot.showGrid(x=True, y=True, alpha=0.2)
+            plot.setMenuEnabled(False, enableViewBoxMenu=False)  # right-click: no plotting-library menu
             if self.plots:
                 plot.setXLink(self.plots[0])
             cursor = pg.InfiniteLine(angle=90, movable=True, pen=pg.mkPen("w", width=1))

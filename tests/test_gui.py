@@ -98,6 +98,19 @@ def test_selecting_a_point_and_pressing_delete_removes_it(qtbot, document, layou
     assert len(document.formation(document.active_formation).positions) == len(points)
 
 
+def test_right_click_in_the_plots_opens_no_plotting_library_menu(qtbot, document, layout):
+    from PySide6.QtWidgets import QApplication
+
+    from app.motion_plots import MotionPlots
+    plots = MotionPlots(document)
+    qtbot.addWidget(plots)
+    for item in [layout.top.getPlotItem(), layout.side.getPlotItem(), *plots.plots]:
+        assert not item.menuEnabled() and not item.getViewBox().menuEnabled()
+    qtbot.mouseClick(layout.top.viewport(), Qt.MouseButton.RightButton, pos=layout.top.viewport().rect().center())
+    qtbot.wait(50)
+    assert QApplication.activePopupWidget() is None
+
+
 def test_points_closer_than_the_clearance_are_flagged(qtbot, document):
     from app.layout_view import LayoutView, too_close
     view = LayoutView(document)
@@ -111,10 +124,25 @@ def test_points_closer_than_the_clearance_are_flagged(qtbot, document):
 
 
 def test_generators_make_the_expected_count_and_spacing(qtbot, document):
+    from dataclasses import replace
+
     from app.formation_panel import FormationPanel
     panel = FormationPanel(document)
     qtbot.addWidget(panel)
     g = panel.generator
+    assert g.count.value() == len(document.scene.fleet.drones)  # one point per drone by default
+    fleet = document.scene.fleet
+    document.edit(replace(document.scene, fleet=replace(fleet, drones=fleet.drones[:5])), "smaller fleet")
+    assert g.count.value() == 5
+    document.undo_stack.undo()
+    assert g.count.value() == len(fleet.drones)
+    g.kind.setCurrentText("sphere")
+    g.sphere_radius.setValue(4.0)
+    for w, v in zip(g.centre, (0.5, -1.0, 6.0), strict=True):
+        w.setValue(v)
+    qtbot.mouseClick(g.apply, Qt.MouseButton.LeftButton)
+    pts = document.formation(document.active_formation).positions
+    assert len(pts) == len(fleet.drones) and np.allclose(np.linalg.norm(pts - [0.5, -1.0, 6.0], axis=1), 4.0)
     g.kind.setCurrentText("grid")
     g.count.setValue(12)
     g.grid_spacing.setValue(2.5)
