@@ -5,7 +5,10 @@ from __future__ import annotations
 
 from dataclasses import replace
 
+from PySide6.QtCore import QTimer
 from PySide6.QtWidgets import QDoubleSpinBox, QLabel, QTableWidget, QVBoxLayout, QWidget
+
+from core.scene.checks import drone_type_problem
 
 from .document import Document
 
@@ -49,6 +52,12 @@ class FleetPanel(QWidget):
         types = list(scene.fleet.types)
         if getattr(types[row], name) == value:
             return
-        types[row] = replace(types[row], **{name: value})
+        edited = replace(types[row], **{name: value})
+        problem = drone_type_problem(edited)
+        if problem is not None:  # refused as typed, not only when planning: the table shows the old value
+            self.document.message.emit(f"{edited.name}: radius z {problem}; the edit was not applied")
+            QTimer.singleShot(0, self.refresh)  # later: the spin box being edited is replaced
+            return
+        types[row] = edited
         self.document.edit(replace(scene, fleet=replace(scene.fleet, types=tuple(types))),
                            f"{types[row].name}: {name.replace('_', ' ')} {value:g}")

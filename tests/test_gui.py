@@ -181,6 +181,14 @@ def test_timeline_fleet_and_planner_edits_are_undoable_and_saved(qtbot, document
     radius.setValue(0.42)
     radius.editingFinished.emit()
     assert document.scene.fleet.types[0].radius_z == pytest.approx(0.42)
+    messages = []
+    document.message.connect(messages.append)
+    before = document.scene
+    radius = fleet.table.cellWidget(0, 1)
+    radius.setValue(0.05)  # below radius xy: refused as typed, the table shows the old value again
+    radius.editingFinished.emit()
+    assert document.scene is before and messages and "must exceed radius_xy" in messages[-1]
+    qtbot.waitUntil(lambda: fleet.table.cellWidget(0, 1).value() == pytest.approx(0.42))
     planner.iterations.setValue(5)
     planner.iterations.editingFinished.emit()
     assert document.scene.planner.smoothing_iterations == 5

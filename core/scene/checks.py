@@ -12,7 +12,7 @@ from .. import limits
 from ..clearance import ClearanceModel
 from ..errors import SceneError
 from .meshes import SiteMesh, load_site_meshes
-from .model import Scene
+from .model import DroneType, Scene
 
 MAX_LISTED = 5  # problems listed per kind before "and N more"
 
@@ -116,16 +116,18 @@ def _check_names(scene: Scene, source: str) -> list[tuple[str, str]]:
     return out
 
 
+def drone_type_problem(t: DroneType) -> str | None:
+    """Why drone type ``t``'s radii cannot be flown (the field named is ``radius_z``), or None.
+    The designer's fleet table refuses such an edit with this text as it is typed."""
+    if t.radius_z <= t.radius_xy:
+        return (f"must exceed radius_xy ({t.radius_z} <= {t.radius_xy}): rotor downwash needs more vertical "
+                "than horizontal spacing")
+    return None
+
+
 def _check_fleet(scene: Scene, source: str) -> list[tuple[str, str]]:
-    out = []
-    for k, t in enumerate(scene.fleet.types):
-        if t.radius_z <= t.radius_xy:
-            out.append((
-                f"{source}: fleet.types[{k}].radius_z",
-                f"must exceed radius_xy ({t.radius_z} <= {t.radius_xy}): rotor downwash needs "
-                "more vertical than horizontal spacing",
-            ))
-    return out
+    return [(f"{source}: fleet.types[{k}].radius_z", problem) for k, t in enumerate(scene.fleet.types)
+            if (problem := drone_type_problem(t)) is not None]
 
 
 def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
