@@ -3,6 +3,7 @@ motion plots and findings below, the time bar and planning controls at the botto
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 from PySide6.QtCore import Qt
@@ -282,6 +283,8 @@ class MainWindow(QMainWindow):
         self.site.frame_points(points, margin=2.0)
 
     def _show_error(self, text: str) -> None:
+        # Files beside the scene are named by file name alone: a full path hides the reason.
+        text = text.replace(str(self.document.base_dir.resolve()) + os.sep, "")
         first, *rest = text.split("\n")
         box = QMessageBox(QMessageBox.Icon.Warning, "Skyloom", first[:200], parent=self)
         if rest:

@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QVBoxLayout, QWidget
+from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
 
 from core.inspection import motion_curves, sample_times
 
@@ -44,7 +44,13 @@ class MotionPlots(QWidget):
             plot.getAxis("bottom").setStyle(showValues=False)
             plot.getAxis("bottom").setHeight(4)
         self.plots[-1].setLabel("bottom", "time", units="s")
-        QVBoxLayout(self).addWidget(self.layout_widget)
+        #: Shown instead of the plots until there is a plan (empty axes say nothing).
+        self.placeholder = QLabel("No plan yet. Press Plan (F5) to see each drone's speed, acceleration, jerk "
+                                  "and snap against its limits, and the fleet's smallest separation over time.",
+                                  wordWrap=True, alignment=Qt.AlignmentFlag.AlignCenter)
+        column = QVBoxLayout(self)
+        column.addWidget(self.placeholder)
+        column.addWidget(self.layout_widget)
         document.plan_changed.connect(self.refresh)
         document.selection_changed.connect(self.refresh)
         document.time_changed.connect(self.move_cursor)
@@ -62,6 +68,8 @@ class MotionPlots(QWidget):
             plot.clear()
             plot.addItem(cursor)
         plan = self.document.plan
+        self.placeholder.setVisible(plan is None)
+        self.layout_widget.setVisible(plan is not None)
         if plan is None:
             return
         traj = plan.trajectory

@@ -104,6 +104,7 @@ def test_right_click_in_the_plots_opens_no_plotting_library_menu(qtbot, document
     from app.motion_plots import MotionPlots
     plots = MotionPlots(document)
     qtbot.addWidget(plots)
+    assert plots.layout_widget.isHidden() and not plots.placeholder.isHidden()  # no empty axes before a plan
     for item in [layout.top.getPlotItem(), layout.side.getPlotItem(), *plots.plots]:
         assert not item.menuEnabled() and not item.getViewBox().menuEnabled()
     qtbot.mouseClick(layout.top.viewport(), Qt.MouseButton.RightButton, pos=layout.top.viewport().rect().center())
@@ -263,6 +264,7 @@ def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, m
     doc = window.document
     assert doc.plan is not None and doc.plan.verified, getattr(window, "last_error", "")
     assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.toPlainText()
+    assert window.plots.layout_widget.isVisible() and window.plots.placeholder.isHidden()
     table = window.findings.table
     assert table.rowCount() > 0 and "PASSED" in window.findings.summary.text()
     row = table.rowCount() - 1
@@ -521,3 +523,11 @@ def test_the_new_scene_plans_and_verifies_in_the_designer(qtbot, make_window):
     doc = window.document
     assert doc.plan is not None and doc.plan.verified and doc.plan_is_current, getattr(window, "last_error", "")
     assert window.windowTitle() == "Skyloom designer — Untitled scene"
+
+
+@needs_opengl
+def test_messages_name_files_beside_the_scene_by_file_name(qtbot, make_window):
+    window = make_window("lab_eight.json")
+    folder = window.document.base_dir.resolve()
+    window.document.message.emit(f"{folder / 'cube.csv'}: row 3: expected 3 or 4 columns")
+    assert window.last_error == "cube.csv: row 3: expected 3 or 4 columns"
