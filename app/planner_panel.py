@@ -38,16 +38,44 @@ class PlannerPanel(QWidget):
         self.degree = QSpinBox(minimum=5, maximum=15)
         self.workers = QSpinBox(minimum=0, maximum=256, specialValueText="all CPUs")
         form = QFormLayout(self)
-        form.addRow("roadmap samples", self.samples)
-        form.addRow("spanner stretch", self.stretch)
-        form.addRow("search", self.search)
-        form.addRow("suboptimality w (ECBS)", self.suboptimality)
-        form.addRow("search time limit", self.time_limit)
-        form.addRow(self.smoothing)
-        form.addRow("smoothing rounds", self.iterations)
-        form.addRow("objective", self.objective)
-        form.addRow("Bézier degree", self.degree)
-        form.addRow("worker processes", self.workers)
+        rows = (
+            ("roadmap points", self.samples,
+             "How many free-space points the roadmap around obstacles is built from (default 1 500), besides the "
+             "points the passage samplers add near obstacles. More points find narrow passages more surely and give "
+             "shorter paths; building takes longer and needs more memory."),
+            ("roadmap detour allowance", self.stretch,
+             "How much longer than before a path may become when the roadmap is thinned out (a greedy spanner with "
+             "this stretch factor; default 1.5). 1 keeps every connection; larger values give a sparser roadmap that "
+             "is searched faster, with longer detours."),
+            ("search", self.search, self.search.toolTip()),
+            ("ECBS cost allowance (w)", self.suboptimality,
+             "ECBS returns a plan whose total number of steps is at most w times the fewest possible (default 2). "
+             "1 asks for the optimum, which can take very long for large teams. LaCAM* has no such bound."),
+            ("search time limit", self.time_limit,
+             "Longest the multi-agent search may run (default 60 s); when it runs out, the message names the drones "
+             "that did not get through and where they crowd."),
+            (None, self.smoothing,
+             "Off: roadmap plans stop at every waypoint (the stop-and-go plan). On: the curves are smoothed inside "
+             "safe corridors, every round checked by the independent verifier."),
+            ("smoothing rounds", self.iterations,
+             "Most corridor-and-QP rounds (default 3). After the first, a round re-times the steps while that "
+             "shortens the flight by at least 1 %, then reshapes the curves until the objective stops improving."),
+            ("smoothness goal", self.objective,
+             "What smoothing minimises: the integral of squared snap (default), jerk or acceleration, 'energy', or "
+             "weights such as acceleration=1,snap=0.01."),
+            ("curve degree (Bézier)", self.degree,
+             "Polynomial degree of each curve piece (default 9: continuous up to snap; 7–8: up to jerk). Higher "
+             "degrees bend more freely and cost more to solve."),
+            ("worker processes", self.workers,
+             "Processes that solve the drones' smoothing problems in parallel (a setting of this computer, not "
+             "saved in the scene)."),
+        )
+        for label, widget, tip in rows:
+            widget.setToolTip(tip)
+            if label is None:
+                form.addRow(widget)
+            else:
+                form.addRow(label, widget)
         self._fields = {"roadmap_samples": self.samples, "spanner_stretch": self.stretch,
                         "suboptimality": self.suboptimality, "search_time_limit": self.time_limit,
                         "smoothing_iterations": self.iterations, "degree": self.degree}

@@ -531,3 +531,19 @@ def test_messages_name_files_beside_the_scene_by_file_name(qtbot, make_window):
     folder = window.document.base_dir.resolve()
     window.document.message.emit(f"{folder / 'cube.csv'}: row 3: expected 3 or 4 columns")
     assert window.last_error == "cube.csv: row 3: expected 3 or 4 columns"
+
+
+def test_planner_settings_explain_themselves_with_the_model_defaults(qtbot, document):
+    from app.planner_panel import PlannerPanel
+    from core.scene import PlannerSettings
+    panel = PlannerPanel(document)
+    qtbot.addWidget(panel)
+    defaults = PlannerSettings()
+    widgets = [panel.samples, panel.stretch, panel.search, panel.suboptimality, panel.time_limit, panel.smoothing,
+               panel.iterations, panel.objective, panel.degree, panel.workers]
+    assert all(len(w.toolTip()) > 40 for w in widgets)
+    assert f"default {defaults.degree}" in panel.degree.toolTip()
+    assert f"default {defaults.smoothing_iterations}" in panel.iterations.toolTip()
+    assert f"default {defaults.suboptimality:g}" in panel.suboptimality.toolTip()
+    assert f"default {defaults.spanner_stretch:g}" in panel.stretch.toolTip()
+    assert f"default {defaults.search_time_limit:g} s" in panel.time_limit.toolTip()
