@@ -1,11 +1,13 @@
 """The timeline: start formation and hold, then each transition's target, assignment mode,
-duration (or as fast as possible) and hold time. Every change is one undo step."""
+duration (or as fast as possible) and hold time; transitions are inserted after, removed or moved
+with the selected row. Every change is one undo step."""
 
 from __future__ import annotations
 
 from dataclasses import replace
 
 from PySide6.QtWidgets import (
+    QAbstractItemView,
     QComboBox,
     QDoubleSpinBox,
     QFormLayout,
@@ -44,21 +46,28 @@ class TimelinePanel(QWidget):
         self.table = QTableWidget(0, len(self.COLUMNS))
         self.table.setHorizontalHeaderLabels(self.COLUMNS)
         self.table.horizontalHeader().setStretchLastSection(True)
-        self.add_button, self.remove_button = QPushButton("Add transition"), QPushButton("Remove last")
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.add_button, self.remove_button = QPushButton("Insert"), QPushButton("Remove")
+        self.up_button, self.down_button = QPushButton("Move up"), QPushButton("Move down")
+        self.add_button.setToolTip("Insert a transition after the selected one (at the end when none is selected)")
+        self.remove_button.setToolTip("Remove the selected transition (the last one when none is selected)")
         form = QFormLayout()
         start_row = QHBoxLayout()
         start_row.addWidget(self.start, 1)
         start_row.addWidget(self.start_hold)
         form.addRow("start at (hold)", start_row)
         buttons = QHBoxLayout()
-        buttons.addWidget(self.add_button)
-        buttons.addWidget(self.remove_button)
+        for button in (self.add_button, self.remove_button, self.up_button, self.down_button):
+            buttons.addWidget(button)
         layout = QVBoxLayout(self)
         layout.addLayout(form)
         layout.addWidget(self.table, 1)
         layout.addLayout(buttons)
         self.add_button.clicked.connect(self._add)
         self.remove_button.clicked.connect(self._remove)
+        self.up_button.clicked.connect(lambda: self._move(-1))
+        self.down_button.clicked.connect(lambda: self._move(1))
         self.start.currentTextChanged.connect(self._commit)
         self.start_hold.editingFinished.connect(self._commit)
         document.scene_changed.connect(self.refresh)
@@ -105,16 +114,40 @@ class TimelinePanel(QWidget):
                            transitions=self.transitions())
         self.document.edit(replace(scene, timeline=timeline), "edit timeline")
 
+    def selected_row(self) -> int | None:
+        """The selected transition's index, or None."""
+        rows = self.table.selectionModel().selectedRows()
+        return rows[0].row() if rows else None
+
+    def _set_transitions(self, transitions: list[Transition], text: str, select: int | None) -> None:
+        scene = self.document.scene
+        self.document.edit(replace(scene, timeline=replace(scene.timeline, transitions=tuple(transitions))), text)
+        if select is not None:
+            self.table.selectRow(select)
+
     def _add(self) -> None:
         scene = self.document.scene
-        last = scene.timeline.transitions[-1].to
-        target = next((f.name for f in scene.formations if f.name != last), last)
-        timeline = replace(scene.timeline, transitions=scene.timeline.transitions + (Transition(to=target),))
-        self.document.edit(replace(scene, timeline=timeline), "add transition")
+        transitions = list(scene.timeline.transitions)
+        row = self.selected_row()
+        at = len(transitions) if row is None else row + 1
+        before = transitions[at - 1].to if at > 0 else scene.timeline.start
+        target = next((f.name for f in scene.formations if f.name != before), before)
+        transitions.insert(at, Transition(to=target))
+        self._set_transitions(transitions, "insert transition", at)
 
     def _remove(self) -> None:
-        scene = self.document.scene
-        if len(scene.timeline.transitions) > 1:
-            timeline = replace(scene.timeline, transitions=scene.timeline.transitions[:-1])
-            self.document.edit(replace(scene, timeline=timeline), "remove transition")
+        transitions = list(self.document.scene.timeline.transitions)
+        if len(transitions) > 1:
+            row = self.selected_row()
+            at = len(transitions) - 1 if row is None else row
+            del transitions[at]
+            self._set_transitions(transitions, "remove transition", min(at, len(transitions) - 1) if row is not None
+                                  else None)
 
+    def _move(self, step: int) -> None:
+        transitions = list(self.document.scene.timeline.transitions)
+        row = self.selected_row()
+        if row is None or not 0 <= row + step < len(transitions):
+            return
+        transitions[row], transitions[row + step] = transitions[row + step], transitions[row]
+        self._set_transitions(transitions, "move transition", row + step)

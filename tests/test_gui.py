@@ -547,3 +547,27 @@ def test_planner_settings_explain_themselves_with_the_model_defaults(qtbot, docu
     assert f"default {defaults.suboptimality:g}" in panel.suboptimality.toolTip()
     assert f"default {defaults.spanner_stretch:g}" in panel.stretch.toolTip()
     assert f"default {defaults.search_time_limit:g} s" in panel.time_limit.toolTip()
+
+
+def test_timeline_transitions_are_inserted_removed_and_reordered_as_undo_steps(qtbot, document):
+    from app.timeline_panel import TimelinePanel
+    panel = TimelinePanel(document)
+    qtbot.addWidget(panel)
+    original = document.scene.timeline.transitions
+    targets = lambda: [t.to for t in document.scene.timeline.transitions]  # noqa: E731
+    assert targets() == ["cube", "rings", "pads"]
+    panel.table.selectRow(0)
+    qtbot.mouseClick(panel.down_button, Qt.MouseButton.LeftButton)
+    assert targets() == ["rings", "cube", "pads"] and panel.selected_row() == 1
+    qtbot.mouseClick(panel.up_button, Qt.MouseButton.LeftButton)
+    assert document.scene.timeline.transitions == original and panel.selected_row() == 0
+    qtbot.mouseClick(panel.add_button, Qt.MouseButton.LeftButton)  # after "cube": a target other than cube
+    assert len(targets()) == 4 and targets()[1] != "cube" and panel.selected_row() == 1
+    qtbot.mouseClick(panel.remove_button, Qt.MouseButton.LeftButton)
+    assert document.scene.timeline.transitions == original
+    panel.table.selectRow(1)
+    qtbot.mouseClick(panel.remove_button, Qt.MouseButton.LeftButton)
+    assert targets() == ["cube", "pads"]
+    for _ in range(5):
+        document.undo_stack.undo()
+    assert document.scene.timeline.transitions == original
