@@ -14,6 +14,8 @@ FORMATION = (0.85, 0.85, 0.85, 0.9)
 SELECTED = (1.0, 1.0, 1.0, 1.0)
 TOO_CLOSE = (1.0, 0.25, 0.25, 1.0)
 ELLIPSOID = (1.0, 0.85, 0.2, 0.25)
+GROUND_GRID = (0.62, 0.68, 0.75, 0.22)
+SCALE_TEXT = (0.75, 0.80, 0.86, 1.0)
 
 
 def drone_colours(n: int) -> np.ndarray:

@@ -1,12 +1,14 @@
-"""The 3D site: obstacle meshes, flight volume, keep-out boxes, formation points, planned curves
-(one line item for the whole fleet), drones at the current time, and the selected drones'
-clearance ellipsoids."""
+"""The 3D site: obstacle meshes, flight volume with a ground grid on its floor (its spacing
+written in the view's corner), keep-out boxes, formation points, planned curves (one line item for the whole
+fleet), drones at the current time, and the selected drones' clearance ellipsoids."""
 
 from __future__ import annotations
 
 import numpy as np
 import pyqtgraph.opengl as gl
+from PySide6.QtCore import QTimer
 from PySide6.QtGui import QVector3D
+from PySide6.QtWidgets import QLabel
 
 from core.inspection import sample_times
 
@@ -15,6 +17,19 @@ from .document import Document
 
 #: Curve samples per piece (polyline vertices).
 CURVE_SAMPLES = 16
+#: Most ground-grid cells along the flight volume's longer side.
+GRID_CELLS = 20
+
+
+def grid_spacing(length: float) -> float:
+    """A round grid spacing (1, 2 or 5 × 10^k m) giving at most :data:`GRID_CELLS` cells over
+    ``length`` m, and at least a quarter of that."""
+    raw = max(float(length), 1e-3) / GRID_CELLS
+    exponent = np.floor(np.log10(raw))
+    for step in (1.0, 2.0, 5.0, 10.0):
+        if step * 10.0**exponent >= raw:
+            return float(step * 10.0**exponent)
+    return float(10.0 ** (exponent + 1))
 
 
 def box_edges(bounds: np.ndarray) -> np.ndarray:
@@ -39,6 +54,13 @@ class SiteView(gl.GLViewWidget):
         self._formation = gl.GLScatterPlotItem(size=6.0, color=palette.FORMATION, pxMode=True, glOptions="translucent")
         self._drones = gl.GLScatterPlotItem(size=9.0, pxMode=True, glOptions="translucent")  # not additive: keeps hues
         self._ellipsoids: list[gl.GLMeshItem] = []
+        self._ground: list[gl.GLGraphicsItem.GLGraphicsItem] = []
+        self.ground_spacing = 1.0
+        self._shown_once = False
+        #: The ground grid's spacing, over the view's top-left corner.
+        self.scale_label = QLabel(self)
+        r, g, b = (int(255 * c) for c in palette.SCALE_TEXT[:3])
+        self.scale_label.setStyleSheet(f"color: rgb({r}, {g}, {b}); background: transparent; padding: 4px;")
         self._sphere = gl.MeshData.sphere(rows=12, cols=18)
         for item in (self._volume, self._curves, self._formation, self._drones):
             self.addItem(item)
@@ -65,7 +87,23 @@ class SiteView(gl.GLViewWidget):
         self._box_items = [self._box_item(b.bounds) for b in scene.site.keep_out]
         for item in self._mesh_items + self._box_items:
             self.addItem(item)
+        self._show_ground(scene.site.flight_volume.bounds)
         self.show_formation(self.shown_formation)
+
+    def _show_ground(self, bounds: np.ndarray) -> None:
+        """A grid over the flight volume's floor; its spacing is written in the view's corner."""
+        for item in self._ground:
+            self.removeItem(item)
+        (x0, y0, z0), (x1, y1, _) = bounds
+        self.ground_spacing = spacing = grid_spacing(max(x1 - x0, y1 - y0))
+        colour = tuple(int(255 * c) for c in palette.GROUND_GRID)
+        grid = gl.GLGridItem(size=QVector3D(x1 - x0, y1 - y0, 1.0), color=colour)
+        grid.setSpacing(spacing, spacing, 1.0)
+        grid.translate(0.5 * (x0 + x1), 0.5 * (y0 + y1), z0)
+        self._ground = [grid]
+        self.addItem(grid)
+        self.scale_label.setText(f"ground grid {spacing:g} m · z up")
+        self.scale_label.adjustSize()
 
     def show_formation(self, name: str | None) -> None:
         """Draw formation ``name``'s points (the first formation when None)."""
@@ -140,11 +178,22 @@ class SiteView(gl.GLViewWidget):
 
     # --- camera ------------------------------------------------------------------------------
     def frame_points(self, points: np.ndarray, margin: float = 1.5) -> None:
-        """Point the camera at ``points`` ``(M, 3)`` and back off so they fit."""
+        """Point the camera at ``points`` ``(M, 3)`` and back off until the sphere around them,
+        ``margin`` × their radius, fits the view's narrower field of view (pyqtgraph's ``fov`` is
+        the horizontal one; the vertical half-angle is atan(tan(fov / 2) · height / width))."""
         points = np.atleast_2d(points)
         centre = points.mean(axis=0)
-        extent = max(float(np.linalg.norm(points - centre, axis=1).max()), 1.0)
-        self.setCameraPosition(pos=QVector3D(*centre), distance=margin * 3.0 * extent)
+        radius = max(float(np.linalg.norm(points - centre, axis=1).max()), 1.0)
+        aspect = max(self.height(), 1) / max(self.width(), 1)
+        half = np.arctan(np.tan(np.radians(self.opts["fov"]) / 2) * min(aspect, 1.0))
+        self.setCameraPosition(pos=QVector3D(*centre), distance=margin * radius / np.sin(half))
+
+    def showEvent(self, event):  # noqa: N802 - Qt's name
+        """Frame the site once the view has its real size (the window lays out its docks when shown)."""
+        super().showEvent(event)
+        if not self._shown_once:
+            self._shown_once = True
+            QTimer.singleShot(0, self.frame_all)
 
     def frame_all(self) -> None:
         self.frame_points(self.document.scene.site.flight_volume.bounds, margin=0.9)

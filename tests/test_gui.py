@@ -571,3 +571,32 @@ def test_timeline_transitions_are_inserted_removed_and_reordered_as_undo_steps(q
     for _ in range(5):
         document.undo_stack.undo()
     assert document.scene.timeline.transitions == original
+
+
+def test_ground_grid_spacing_is_a_round_number_of_metres():
+    from app.site_view import GRID_CELLS, grid_spacing
+    for length, expected in ((30.0, 2.0), (100.0, 5.0), (8.0, 0.5), (1000.0, 50.0), (40.0, 2.0), (41.0, 5.0)):
+        spacing = grid_spacing(length)
+        assert spacing == expected and GRID_CELLS / 5 <= length / spacing <= GRID_CELLS
+
+
+@needs_opengl
+@pytest.mark.parametrize("size", [(1280, 720), (1500, 950)])
+def test_the_site_is_framed_whole_at_common_window_sizes(qtbot, make_window, size):
+    """Every corner of the flight volume projects inside the 3D view (pyqtgraph's own projection
+    and view matrices), with the ground grid drawn and its spacing written."""
+    from PySide6.QtGui import QVector4D
+
+    from app.site_view import box_edges
+    window = make_window("bridge_inspection.json")
+    window.resize(*size)
+    qtbot.wait(100)
+    view = window.site
+    view.frame_all()
+    w, h = view.width(), view.height()
+    matrix = view.projectionMatrix((0, 0, w, h), (0, 0, w, h)) * view.viewMatrix()
+    corners = np.unique(box_edges(window.document.scene.site.flight_volume.bounds), axis=0)
+    for corner in corners:
+        p = matrix.map(QVector4D(*corner, 1.0))
+        assert abs(p.x() / p.w()) <= 1.0 and abs(p.y() / p.w()) <= 1.0
+    assert view.scale_label.text() == f"ground grid {view.ground_spacing:g} m · z up" and len(view._ground) == 1
