@@ -7,7 +7,8 @@ import colorsys
 import numpy as np
 
 BACKGROUND = (0.09, 0.10, 0.12, 1.0)
-OBSTACLE = (0.55, 0.55, 0.58, 1.0)
+OBSTACLE = (1.0, 1.0, 1.0, 1.0)  # the shaded shader keeps 0.2–1.0 of it, by the angle to its light
+OBSTACLE_EDGE = (0.80, 0.82, 0.86, 0.55)
 VOLUME = (0.35, 0.65, 0.95, 0.6)
 KEEP_OUT = (0.95, 0.45, 0.25, 0.35)
 FORMATION = (0.85, 0.85, 0.85, 0.9)

@@ -11,6 +11,7 @@ from PySide6.QtGui import QVector3D
 from PySide6.QtWidgets import QLabel
 
 from core.inspection import sample_times
+from core.scene.meshes import feature_edges
 
 from . import palette
 from .document import Document
@@ -47,7 +48,7 @@ class SiteView(gl.GLViewWidget):
         super().__init__(parent)
         self.document = document
         self.setBackgroundColor(tuple(int(255 * c) for c in palette.BACKGROUND[:3]))
-        self._mesh_items: list[gl.GLMeshItem] = []
+        self._mesh_items: list[gl.GLGraphicsItem.GLGraphicsItem] = []
         self._box_items: list[gl.GLMeshItem] = []
         self._volume = gl.GLLinePlotItem(mode="lines", color=palette.VOLUME, width=1.0, antialias=True)
         self._curves = gl.GLLinePlotItem(mode="lines", width=1.5, antialias=True)
@@ -84,6 +85,10 @@ class SiteView(gl.GLViewWidget):
             gl.GLMeshItem(vertexes=np.asarray(m.mesh.vertices, dtype=np.float32), faces=np.asarray(m.mesh.faces),
                           smooth=False, shader="shaded", color=palette.OBSTACLE, glOptions="opaque")
             for m in self.document.meshes()]
+        # Their creases as lines: faces turned from the light stay legible.
+        self._mesh_items += [gl.GLLinePlotItem(pos=feature_edges(m.mesh).astype(np.float32), mode="lines",
+                                               color=palette.OBSTACLE_EDGE, width=1.0, antialias=True)
+                             for m in self.document.meshes()]
         self._box_items = [self._box_item(b.bounds) for b in scene.site.keep_out]
         for item in self._mesh_items + self._box_items:
             self.addItem(item)

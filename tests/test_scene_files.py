@@ -156,3 +156,17 @@ def test_the_starter_scene_passes_the_scene_checks_and_plans_verified():
     assert check_scene(scene, "new scene", ROOT, None) == []
     result = plan(scene)
     assert result.verified and len(result.transitions) == 1
+
+
+def test_feature_edges_of_a_box_are_its_twelve_edges():
+    """A box has 12 edges (Euler: V − E + F = 2 with 8 vertices and 6 faces); the triangulation's
+    face diagonals are not creases. Each edge is axis-aligned and as long as one extent."""
+    import trimesh
+
+    from core.scene.meshes import feature_edges
+    extents = np.array([2.0, 3.0, 5.0])
+    ends = feature_edges(trimesh.creation.box(extents=extents)).reshape(-1, 2, 3)
+    assert len(ends) == 12
+    d = np.abs(ends[:, 1] - ends[:, 0])
+    assert np.all(np.count_nonzero(d > 1e-9, axis=1) == 1)
+    assert sorted(np.round(d.max(axis=1), 9).tolist()) == [2.0] * 4 + [3.0] * 4 + [5.0] * 4

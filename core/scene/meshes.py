@@ -114,3 +114,12 @@ def _parsed(ref: MeshRef, path: str, size: int, mtime_ns: int) -> SiteMesh:
     if not mesh.is_watertight:
         notes.append("mesh is not watertight: only its surface is an obstacle (its inside is not known)")
     return SiteMesh(ref.name, mesh, tuple(notes))
+
+
+def feature_edges(mesh: trimesh.Trimesh, angle_deg: float = 20.0) -> np.ndarray:
+    """End points ``(2 E, 3)`` m of the edges worth drawing: where the two faces meet at more
+    than ``angle_deg`` degrees, and open edges (one face only). A box gives its 12 edges, not the
+    diagonals of its triangulation."""
+    sharp = mesh.face_adjacency_edges[mesh.face_adjacency_angles > np.radians(angle_deg)]
+    edges, counts = np.unique(np.sort(mesh.edges, axis=1), axis=0, return_counts=True)
+    return mesh.vertices[np.concatenate([sharp.reshape(-1, 2), edges[counts == 1]])].reshape(-1, 3)
