@@ -104,7 +104,7 @@ def _farthest_run(positions: np.ndarray, margins: np.ndarray, boxes: _RangeBoxes
     last = positions.shape[1] - 1
 
     def straightens(b: int) -> bool:
-        needed = MARGIN_SHARE * min(float(margins[i, a:b].min()), MARGIN_CAP)
+        needed = max(MARGIN_SHARE * min(float(margins[i, a:b].min()), MARGIN_CAP), 0.0)  # never into an obstacle
         return bool(_margins(field, positions[i, a][None], positions[i, b][None])[0] >= needed) and \
             _run_clear(positions, boxes, clearance, i, a, b)
 
