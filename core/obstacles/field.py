@@ -58,6 +58,7 @@ class ClearanceField:
             self.mesh_grids.append([MeshDistanceGrid(vertices, faces, pitch, pad=pad, solid=m.watertight)
                                     for faces in _grid_groups(vertices, m.mesh.faces, m.mesh.face_adjacency, pad)])
         self.grids = [g for grids in self.mesh_grids for g in grids]
+        self._grid_boxes = [_GridBoxes(grids) if grids else None for grids in self.mesh_grids]
         self._scaled_meshes = [(m.mesh.vertices / self.semi_axes, m.mesh.faces) for m in meshes]
         self._exact: dict[int, trimesh.proximity.ProximityQuery] = {}
         self.error_bound = max((g.error for g in self.grids), default=0.0)
@@ -80,7 +81,7 @@ class ClearanceField:
         parts = [np.minimum(scaled - lo, hi - scaled).min(axis=1)]
         parts += [box_distance_ratio(points, box, self.semi_axes) - 1.0 for box in self.keep_out]
         for k, grids in enumerate(self.mesh_grids):
-            bound = _lower_bound_over(grids, scaled) - 1.0 if grids else np.full(len(points), np.inf)
+            bound = _lower_bound_over(self._grid_boxes[k], scaled) - 1.0 if grids else np.full(len(points), np.inf)
             if exact and grids:
                 # Undecided: the bound is < 0 but within the grids' two-sided error of 0, and > −1,
                 # so the point is outside the mesh (inside a watertight mesh the bound is ≤ −1).
@@ -157,26 +158,33 @@ class ClearanceField:
 QUERY_BLOCK = 1 << 20
 
 
-def _lower_bound_over(grids: list[MeshDistanceGrid], points: np.ndarray) -> np.ndarray:
-    """``min`` over ``grids`` of their lower bounds ``(M,)`` for scaled ``points`` ``(M, 3)``, as
-    :meth:`MeshDistanceGrid.lower_bound` gives them, without asking every grid about every point:
-    the distances to all grids' boxes come in one array, and only the grids with points near
-    their (padded) extent look those points up."""
-    bounds = np.stack([g.bounds for g in grids])  # (G, 2, 3)
-    origin = np.stack([g.origin for g in grids])
-    extent = origin + np.array([g.shape for g in grids]) * np.array([g.pitch for g in grids])[:, None]
+class _GridBoxes:
+    """One mesh's grids with their boxes stacked once (for :func:`_lower_bound_over`): mesh boxes
+    ``bounds`` ``(2, G, 3)`` and grid extents ``low``, ``high`` ``(G, 3)``, scaled units."""
+
+    def __init__(self, grids: list[MeshDistanceGrid]):
+        self.grids = grids
+        self.bounds = np.stack([g.bounds for g in grids], axis=1)
+        self.low = np.stack([g.origin for g in grids])
+        self.high = self.low + np.array([g.shape for g in grids]) * np.array([g.pitch for g in grids])[:, None]
+
+
+def _lower_bound_over(boxes: _GridBoxes, points: np.ndarray) -> np.ndarray:
+    """``min`` over a mesh's grids of their lower bounds ``(M,)`` for scaled ``points`` ``(M, 3)``,
+    as :meth:`MeshDistanceGrid.lower_bound` gives them, without asking every grid about every
+    point: the distances to all grids' boxes come in one array, and only the grids with points
+    near their extent look those points up."""
     out = np.full(len(points), np.inf)
     block = max(1, QUERY_BLOCK // max(len(points), 1))
-    for first in range(0, len(grids), block):
+    p = points[:, None, :]
+    for first in range(0, len(boxes.grids), block):
         part = slice(first, first + block)
-        p = points[:, None, :]
-        gap = np.maximum(bounds[part, 0] - p, 0.0) + np.maximum(p - bounds[part, 1], 0.0)
-        distance = np.linalg.norm(gap, axis=-1)  # (M, g): the bound outside a grid's extent
+        distance = box_distance_ratio(p, boxes.bounds[:, part], np.ones(3))  # (M, g): the bound outside a grid
         # Slack of one scaled unit: the grid's own index test decides near its extent's faces.
-        near = np.all((p >= origin[part] - 1.0) & (p <= extent[part] + 1.0), axis=-1)
+        near = np.all((p >= boxes.low[part] - 1.0) & (p <= boxes.high[part] + 1.0), axis=-1)
         for g in np.nonzero(near.any(axis=0))[0]:
             rows = np.nonzero(near[:, g])[0]
-            distance[rows, g] = grids[first + g].lower_bound(points[rows])
+            distance[rows, g] = boxes.grids[first + g].lower_bound(points[rows])
         out = np.minimum(out, distance.min(axis=1))
     return out
 

@@ -112,19 +112,11 @@ def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bou
     found, assignment = search.found, search.assignment
     ids, settings = context.scene.fleet.ids, context.settings
     positions = _step_positions(roadmap, found.paths)
-    conflicts = check_discrete_plan(positions, context.clearance)
-    if conflicts:
-        c = conflicts[0]
-        raise PlanningError(f"{problem.where}: the discrete plan check found {len(conflicts)} conflicts (first: drones "
-                            f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
+    _check_steps(problem, positions, context, "discrete plan")
     positions = _moving_steps(positions)
     roadmap_length = _fleet_path_length(positions)
     positions = _moving_steps(pull_strings(positions, context.clearance, context.field))  # a dodge may vanish
-    conflicts = check_discrete_plan(positions, context.clearance)
-    if conflicts:
-        c = conflicts[0]
-        raise PlanningError(f"{problem.where}: the straightened plan check found {len(conflicts)} conflicts (first: "
-                            f"drones {ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
+    _check_steps(problem, positions, context, "straightened plan")
     durations, pieces = _stop_and_go(positions, step_profile(problem.profile, settings.degree), settings.degree,
                                      context.limits)
     baseline = _baseline_figures(durations, pieces, ids, roadmap_length, _fleet_path_length(positions))
@@ -210,6 +202,16 @@ def _moving_steps(positions: np.ndarray) -> np.ndarray:
     """``positions`` ``(N, K + 1, 3)`` without the steps in which nobody moves."""
     moves = np.any(np.abs(np.diff(positions, axis=1)) > 0, axis=(0, 2))
     return positions[:, np.r_[True, moves]]
+
+
+def _check_steps(problem: TransitionProblem, positions: np.ndarray, context: PlanningContext, what: str) -> None:
+    """Raise :class:`PlanningError` when the independent discrete check finds two steps of
+    ``positions`` ``(N, K + 1, 3)`` that touch (a planner bug: ``what`` names the stage)."""
+    conflicts = check_discrete_plan(positions, context.clearance)
+    if conflicts:
+        c, ids = conflicts[0], context.scene.fleet.ids
+        raise PlanningError(f"{problem.where}: the {what} check found {len(conflicts)} conflicts (first: drones "
+                            f"{ids[c.a]} and {ids[c.b]} at step {c.step}); this is a planner bug, please report")
 
 
 def _fleet_path_length(positions: np.ndarray) -> float:
