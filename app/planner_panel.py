@@ -58,8 +58,9 @@ class PlannerPanel(QWidget):
              "Off: roadmap plans stop at every waypoint (the stop-and-go plan). On: the curves are smoothed inside "
              "safe corridors, every round checked by the independent verifier."),
             ("smoothing rounds", self.iterations,
-             "Most corridor-and-QP rounds (default 3). After the first, a round re-times the steps while that "
-             "shortens the flight by at least 1 %, then reshapes the curves until the objective stops improving."),
+             "Most corridor-and-QP rounds (default 5). After the first, each round re-times the steps; smoothing "
+             "ends when a round shortens the flight by less than 5 % (or not at all: then the round before is kept). "
+             "A round that fails is followed by rounds that only reshape the curves."),
             ("smoothness goal", self.objective,
              "What smoothing minimises: the integral of squared snap (default), jerk or acceleration, 'energy', or "
              "weights such as acceleration=1,snap=0.01."),

@@ -92,7 +92,7 @@ def _parser() -> argparse.ArgumentParser:
     pl.add_argument("--no-cache", action="store_true", help="rebuild the roadmap instead of reusing a cached one")
     pl.add_argument("--no-smoothing", action="store_true",
                     help="keep roadmap plans stop-and-go (stop at every waypoint) instead of smoothing them")
-    pl.add_argument("--iterations", type=int, metavar="N", help="most corridor/QP smoothing rounds (default 3)")
+    pl.add_argument("--iterations", type=int, metavar="N", help="most corridor/QP smoothing rounds (default 5)")
     pl.add_argument("--objective", metavar="OBJ",
                     help="smoothing objective: snap, jerk, acceleration, energy, or weights such as "
                          "'acceleration=1,snap=0.01' (default: the scene's, usually snap)")

@@ -267,7 +267,7 @@ class PlannerSettings:
     #: Smoothing of roadmap plans: on/off, most QP rounds, objective (a name or term weights, see
     #: :func:`core.objectives.parse_objective`).
     smoothing: Annotated[bool, Field(strict=True)] = True
-    smoothing_iterations: _integer(ge=1, le=50) = 3
+    smoothing_iterations: _integer(ge=1, le=50) = 5
     objective: Annotated[str, Field(strict=True, max_length=200), AfterValidator(_objective_text)] = "snap"
 
 
