@@ -1,8 +1,8 @@
 """Lay out a formation by clicking: a top-down view at a chosen altitude and a side view for height.
 
 Click on empty ground adds a point (snapped to the grid), drag moves a point, click selects (Ctrl
-adds to the selection), Delete removes the selected points. Points closer than the fleet's
-clearance to another point are drawn red. Every edit is one undo step.
+adds to the selection), Delete removes the selected points. Points closer to another point than
+the clearance of the drones that can stand on them are drawn red. Every edit is one undo step.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ from PySide6.QtWidgets import (
 )
 
 from core.clearance import ClearanceModel
-from core.scene.checks import crowded_points
+from core.scene.occupants import crowded_pairs, possible_shapes
 
 from . import palette
 from .document import Document
@@ -33,12 +33,12 @@ DRAG_MERGE_BASE = 1000
 PICK_PIXELS = 8.0
 
 
-def too_close(points: np.ndarray, clearance: ClearanceModel) -> np.ndarray:
+def too_close(points: np.ndarray, clearance: ClearanceModel, shapes: np.ndarray | None) -> np.ndarray:
     """Mask ``(n,)`` of points closer to another point than the scene loader allows
-    (:func:`core.scene.checks.crowded_points`)."""
+    (:func:`core.scene.occupants.crowded_pairs`; ``shapes`` ``(n, K)`` who can stand where)."""
     if len(points) < 2:
         return np.zeros(len(points), dtype=bool)
-    pairs, _ = crowded_points(points, clearance)
+    pairs, _ = crowded_pairs(points, clearance, shapes)
     mask = np.zeros(len(points), dtype=bool)
     mask[pairs.ravel()] = True
     return mask
@@ -206,7 +206,8 @@ class LayoutView(QWidget):
         f = self.formation
         points = f.positions
         self.selected = {k for k in self.selected if k < len(points)}
-        close = too_close(points, self.document.scene.fleet.clearance)
+        scene = self.document.scene
+        close = too_close(points, scene.fleet.clearance, possible_shapes(scene)[f.name])
         for plot in (self.top, self.side):
             plot.show_points(points, self.selected, close)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)

@@ -8,6 +8,8 @@ be written as, next to the scene. :func:`write_scene` writes both into a folder.
 * :func:`line_swap` — two lines of drones 8 m apart swap places head-on in open air.
 * :func:`floor_pads` — a mixed team takes off from pads on the floor of the flight volume, flies
   over a low canopy to a crown, and lands again (grouped by type).
+* :func:`mixed_crown` — heavy camera drones and light scouts on tightly packed floor pads (the
+  scouts' pads closer than two heavy drones may be) fly to a two-ring crown and back, grouped by type.
 * :func:`window_facade` — an inspection crew passes a facade through its one window (a mesh),
   with a quarter of a metre to spare above and below each drone.
 * :func:`crowd_wall` — a show crowd (unlabeled) crosses a wall through two 3 m gaps.
@@ -98,6 +100,30 @@ def floor_pads(heavy: int = 2, light: int = 6) -> tuple[dict, dict]:
     site = {"flight_volume": {"lower": [-14.0, -16.0, 0.0], "upper": [14.0, 16.0, 12.0]},
             "keep_out": [{"name": "canopy", "lower": [-4.0, -14.0, 0.0], "upper": [-2.0, 14.0, 3.5]}]}
     return _scene(f"floor pads ({heavy} heavy + {light} light)", site, [heavy_type, light_type], kinds,
+                  {"pads": pads, "crown": crown, "landed": pads},
+                  [{"to": "crown", "assignment": "grouped"}, {"to": "landed", "assignment": "grouped"}],
+                  groups={"pads": kinds, "crown": kinds, "landed": kinds}), {}
+
+
+def mixed_crown(heavy: int = 4, light: int = 12) -> tuple[dict, dict]:
+    """``heavy`` camera drones (radii 0.6 / 1.0 m + 0.1) on floor pads 3 m apart and ``light``
+    scouts (0.15 / 0.35 m + 0.05) on pads 1.2 m apart — closer than two heavy drones may be — fly
+    to a crown (heavy inner ring 3 m round at 9 m, scouts outer ring 7 m round at 6 m) and land
+    again, grouped by type."""
+    heavy_type = {"name": "camera", "radius_xy": 0.6, "radius_z": 1.0, "tracking_margin": 0.1,
+                  "max_speed_xy": 2.5, "max_speed_z": 1.5, "max_acceleration": 2.0}
+    light_type = {"name": "scout", "radius_xy": 0.15, "radius_z": 0.35, "tracking_margin": 0.05,
+                  "max_speed_xy": 4.0, "max_speed_z": 2.5, "max_acceleration": 3.0}
+    heavy_pads = np.c_[np.full(heavy, -10.0), (np.arange(heavy) - (heavy - 1) / 2) * 3.0, np.zeros(heavy)]
+    light_pads = np.c_[np.full(light, -6.0), (np.arange(light) - (light - 1) / 2) * 1.2, np.zeros(light)]
+    pads = np.vstack([heavy_pads, light_pads])
+    inner = np.linspace(0.0, 2 * np.pi, heavy, endpoint=False)
+    outer = np.linspace(0.0, 2 * np.pi, light, endpoint=False) + np.pi / light
+    crown = np.vstack([np.c_[3.0 * np.cos(inner), 3.0 * np.sin(inner), np.full(heavy, 9.0)],
+                       np.c_[7.0 * np.cos(outer), 7.0 * np.sin(outer), np.full(light, 6.0)]])
+    kinds = ["camera"] * heavy + ["scout"] * light
+    site = {"flight_volume": {"lower": [-14.0, -12.0, 0.0], "upper": [12.0, 12.0, 12.0]}}
+    return _scene(f"mixed crown ({heavy} heavy + {light} light)", site, [heavy_type, light_type], kinds,
                   {"pads": pads, "crown": crown, "landed": pads},
                   [{"to": "crown", "assignment": "grouped"}, {"to": "landed", "assignment": "grouped"}],
                   groups={"pads": kinds, "crown": kinds, "landed": kinds}), {}

@@ -39,18 +39,20 @@ class ClearanceModel:
 
     def __init__(self, semi_axes: np.ndarray):
         self.semi_axes = np.asarray(semi_axes, dtype=np.float64).reshape(-1, 3)
-        kinds, self._kind = np.unique(self.semi_axes, axis=0, return_inverse=True)
-        self._kind = self._kind.ravel()
+        kinds, kind_of = np.unique(self.semi_axes, axis=0, return_inverse=True)
+        #: ``(N,)`` each drone's shape index into :attr:`kind_pair_radii` (drones of equal half-axes share one).
+        self.kind_of = kind_of.ravel()
         k = len(kinds)
         ii, jj = np.meshgrid(np.arange(k), np.arange(k), indexing="ij")
-        self._kind_pair_radii = pair_radii(kinds[ii.ravel()], kinds[jj.ravel()]).reshape(k, k, 3)
-        self.pair_envelope = self._kind_pair_radii.reshape(-1, 3).max(axis=0)
+        #: ``(K, K, 3)`` pair half-axes for every two shapes (symmetric in the two shapes).
+        self.kind_pair_radii = pair_radii(kinds[ii.ravel()], kinds[jj.ravel()]).reshape(k, k, 3)
+        self.pair_envelope = self.kind_pair_radii.reshape(-1, 3).max(axis=0)
         self.envelope = kinds.max(axis=0)
         self.homogeneous = k == 1
 
     def radii(self, i: np.ndarray, j: np.ndarray) -> np.ndarray:
         """Pair half-axes ``(M, 3)`` for drone index arrays ``i``, ``j`` ``(M,)``."""
-        return self._kind_pair_radii[self._kind[i], self._kind[j]]
+        return self.kind_pair_radii[self.kind_of[i], self.kind_of[j]]
 
     def ratio(self, i: np.ndarray, j: np.ndarray, pos_i: np.ndarray, pos_j: np.ndarray) -> np.ndarray:
         """Separation ratios ``(M,)`` of pairs ``(i, j)`` at positions ``(M, 3)`` (≥ 1 is clear)."""

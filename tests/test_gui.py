@@ -121,7 +121,7 @@ def test_points_closer_than_the_clearance_are_flagged(qtbot, document):
     crowded = f.positions.copy()
     crowded[1] = crowded[0] + [0.9 * clearance.pair_envelope[0], 0.0, 0.0]
     document.edit_formation(f.name, crowded, f.groups, "crowd")
-    assert too_close(crowded, clearance)[[0, 1]].all() and "closer than the clearance" in view.status.text()
+    assert too_close(crowded, clearance, None)[[0, 1]].all() and "closer than the clearance" in view.status.text()
 
 
 def test_generators_make_the_expected_count_and_spacing(qtbot, document):

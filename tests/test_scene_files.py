@@ -73,7 +73,7 @@ def test_formations_closer_than_the_clearance_name_the_pair():
     f["sky"][1] = [0.3, 0.0, 5.0]  # 0.3 m from point 0; pair radius sideways is 0.4 m
     [(where, why)] = _problems(scene_dict(f, [{"to": "sky"}]))
     assert where == "s.json: formations[1] ('sky').points[0] and points[1]"
-    assert "closer than the fleet's clearance" in why and "0.300 m" in why
+    assert "closer than the clearance of drones that can stand there" in why and "0.300 m" in why
 
 
 def test_point_outside_volume_goal_in_keep_out_and_wrong_count():

@@ -36,7 +36,9 @@ def roadmap_assignment(problem: TransitionProblem, context: PlanningContext,
                        progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> Assignment:
     """Goal point per drone: labeled keeps the order; unlabeled and grouped minimise the sum of
     roadmap path lengths (Hungarian method). Raises :class:`PlanningError` naming the drones and
-    points no collision-free path connects."""
+    points no collision-free path connects, or the formation points closer than the roadmap's
+    pair shape (:func:`_check_roadmap_spacing`)."""
+    _check_roadmap_spacing(problem, context)
     attached = context.roadmap(progress, cancel)
     roadmap, vertex_of = attached.roadmap, attached.vertex_of
     starts = vertex_of[problem.source][problem.occupied]
@@ -171,9 +173,33 @@ def free_space_bound(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, li
     return worst
 
 
-def _point(problem: TransitionProblem, context: PlanningContext, k: int) -> str:
-    index = [f.name for f in context.scene.formations].index(problem.target)
-    return f"formations[{index}] ({problem.target!r}).points[{k}]"
+def _point(problem: TransitionProblem, context: PlanningContext, k: int, formation: str | None = None) -> str:
+    name = formation or problem.target
+    index = [f.name for f in context.scene.formations].index(name)
+    return f"formations[{index}] ({name!r}).points[{k}]"
+
+
+def _check_roadmap_spacing(problem: TransitionProblem, context: PlanningContext) -> None:
+    """Raise :class:`PlanningError` when two start or two goal points of a roadmap transition are
+    closer than the fleet's largest pair shape. The roadmap's conflicts keep every pair that far
+    apart, so such drones could never leave or reach their points: the search would only run out
+    of time. (The scene loader accepts such points where only smaller drones can stand on them.)"""
+    clearance = context.clearance
+    for formation, points, index in ((problem.source, problem.starts, problem.occupied),
+                                     (problem.target, problem.goal_points, None)):
+        pairs, ratios = clearance.bound_pairs(points, 1.0)
+        if not len(pairs):
+            continue
+        (i, j), r = pairs[np.argmin(ratios)], float(ratios.min())
+        a, b = (i, j) if index is None else (index[i], index[j])
+        raise PlanningError(
+            f"{problem.where}: {_point(problem, context, int(a), formation)} and points[{int(b)}] are "
+            f"{np.linalg.norm(points[i] - points[j]):.2f} m apart ({len(pairs)} such pairs): enough for the drones "
+            f"that stand there, but this transition needs the roadmap (straight lines would meet an obstacle or "
+            f"each other), and the roadmap keeps every pair as far apart as the fleet's two largest drones "
+            f"(ratio {r:.3f} < 1; sideways {clearance.pair_envelope[0]:.2f} m, vertically "
+            f"{clearance.pair_envelope[2]:.2f} m). Space these points that far apart, or let the transition fly "
+            "straight lines")
 
 
 def _check_reachable(problem: TransitionProblem, context: PlanningContext, roadmap: Roadmap, starts: np.ndarray,

@@ -9,10 +9,10 @@ import numpy as np
 import trimesh
 
 from .. import limits
-from ..clearance import ClearanceModel
 from ..errors import SceneError
 from .meshes import SiteMesh, load_site_meshes
 from .model import DroneType, Scene
+from .occupants import crowded_pairs, possible_shapes
 
 MAX_LISTED = 5  # problems listed per kind before "and N more"
 
@@ -22,13 +22,6 @@ def box_distance_ratio(points: np.ndarray, bounds: np.ndarray, semi_axes: np.nda
     ellipsoid half-axes ``(3,)`` or ``(M, 3)``: < 1 means the clearance ellipsoid touches the box."""
     gap = np.maximum(bounds[0] - points, 0.0) + np.maximum(points - bounds[1], 0.0)
     return np.linalg.norm(gap / semi_axes, axis=-1)
-
-
-def crowded_points(points: np.ndarray, clearance: ClearanceModel) -> tuple[np.ndarray, np.ndarray]:
-    """Pairs ``(M, 2)`` of formation points ``(P, 3)`` closer than the fleet's largest pair shape
-    (any drone may land on any point), with their ratios ``(M,)``: the loader's rule, shared with
-    the designer's layout view."""
-    return clearance.bound_pairs(points, 1.0)
 
 
 def format_xyz(point: np.ndarray, spec: str = "g") -> str:
@@ -156,6 +149,7 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
     n = len(scene.fleet.drones)
     clearance = scene.fleet.clearance
     volume = scene.site.flight_volume.bounds
+    occupants = possible_shapes(scene)
     for k, f in enumerate(scene.formations):
         where = f"{source}: formations[{k}] ({f.name!r})"
         if len(f.points) != n:
@@ -170,10 +164,10 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
             hit = np.nonzero(box_distance_ratio(p, box.bounds, clearance.envelope) < 1.0)[0]
             out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} puts a drone's clearance ellipsoid inside "
                              f"keep-out box {box.name!r}") for i in hit])
-        pairs, ratios = crowded_points(p, clearance)
+        pairs, ratios = crowded_pairs(p, clearance, occupants[f.name])
         out += _listed([
             (f"{where}.points[{i}] and points[{j}]",
-             f"are closer than the fleet's clearance (separation ratio {r:.3f} < 1; "
+             f"are closer than the clearance of drones that can stand there (separation ratio {r:.3f} < 1; "
              f"distance {np.linalg.norm(p[i] - p[j]):.3f} m)")
             for (i, j), r in zip(pairs, ratios, strict=True)
         ])
