@@ -137,3 +137,23 @@ def test_cruise_law_stays_within_its_bound_of_the_trapezoid(length):
         t = cruise_timing(leg, limits * margin, 9).duration
         assert t / trapezoid_lower_bound(leg, limits) <= np.sqrt(KAPPA) / margin + 1e-12
         assert t <= minimum_duration(leg, limits * margin, MIN_SNAP)[0] + 1e-12
+
+
+@pytest.mark.parametrize("degree", [7, 9])
+def test_straight_legs_end_exactly_on_their_goals_and_stay_between_the_ends(degree):
+    """Landing pads on the floor of the flight volume: in floating point ``a + 1.0 (b − a)`` need
+    not be ``b`` and the cruise law's last control values came out 1 + 4e-16, so a landing ended
+    1e-15 m below the floor and failed verification. Control points must end on the goal bit for
+    bit and keep every coordinate between start and goal (then so does the curve: Bernstein
+    weights are a partition of unity — Farin, "Curves and Surfaces for CAGD", 2002, convex hull
+    property)."""
+    rng = np.random.default_rng(degree)
+    starts = rng.uniform(-20.0, 20.0, size=(200, 3))
+    goals = rng.uniform(-20.0, 20.0, size=(200, 3))
+    goals[:, 2] = rng.choice([0.0, 0.1, 0.3, 7.7], size=200)
+    limits = np.tile([3.0, 2.0, 2.5], (200, 1))
+    for points in (shared_leg_points(starts, goals, cruise_timing(goals - starts, limits, degree)),
+                   straight_leg_points(starts, goals, MIN_SNAP, degree)[:, None]):
+        assert np.array_equal(points[:, -1, -1], goals) and np.array_equal(points[:, 0, 0], starts)
+        low, high = np.minimum(starts, goals)[:, None, None], np.maximum(starts, goals)[:, None, None]
+        assert np.all(points >= low) and np.all(points <= high)
