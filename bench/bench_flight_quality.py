@@ -42,7 +42,8 @@ def open_air(smoke: bool) -> None:
 def stress(smoke: bool) -> list[str]:
     """Plan every stress scene; return the defects found (stop-and-go transitions, failed plans)."""
     sizes = {"wall_crossing": (16,) if smoke else (64,), "tower_stations": (4,) if smoke else (10,),
-             "line_swap": (3,) if smoke else (5,), "floor_pads": (1, 3) if smoke else (2, 6)}
+             "line_swap": (3,) if smoke else (5,), "floor_pads": (1, 3) if smoke else (2, 6),
+             "mixed_crown": (2, 6) if smoke else (4, 12)}
     defects = []
     with tempfile.TemporaryDirectory() as folder:
         for builder, args in sizes.items():

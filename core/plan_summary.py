@@ -57,7 +57,9 @@ def plan_summary_lines(result: PlanResult) -> list[str]:
     if result.roadmap is not None:
         r = result.roadmap
         cached = " (from cache)" if r.cached else ""
-        lines.append(f"roadmap: {r.vertices} vertices, {r.edges} edges, {r.conflicts} conflicting action pairs{cached}")
+        layers = f", one layer per drone shape ({r.layers})" if r.layers > 1 else ""
+        lines.append(f"roadmap: {r.vertices} vertices, {r.edges} edges, {r.conflicts} conflicting action pairs"
+                     f"{layers}{cached}")
     if result.reused:
         lines.append("taken over unchanged from the previous plan: transition(s) "
                      + ", ".join(str(k) for k in result.reused))

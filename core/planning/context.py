@@ -22,6 +22,7 @@ from ..progress import CancelToken, ProgressCallback, no_progress
 from ..roadmap.build import RoadmapSettings, attach_points, build_roadmap
 from ..roadmap.cache import cached_roadmap, roadmap_key
 from ..roadmap.graph import Roadmap
+from ..roadmap.layers import layered_roadmap
 from ..scene.checks import format_xyz
 from ..scene.meshes import SiteMesh, load_site_meshes
 from ..scene.model import PlannerSettings, Scene
@@ -37,20 +38,38 @@ SAMPLES_PER_DRONE = 20
 
 @dataclass(frozen=True, eq=False)
 class AttachedRoadmap:
-    """The roadmap with every formation point attached: ``vertex_of[formation name]`` ``(P,)``
-    gives the vertex of each of its points; ``figures`` describe it."""
+    """The roadmap with every formation point attached, one layer per drone shape
+    (:func:`~core.roadmap.layers.layered_roadmap`): ``vertex_of[formation name]`` ``(P,)`` gives
+    the vertex of each of its points in the first layer, ``layer_offset`` ``(N,)`` what to add for
+    each drone's own layer (all 0 for a fleet of one shape); ``figures`` describe it."""
 
     roadmap: Roadmap
     vertex_of: dict[str, np.ndarray]
     figures: RoadmapFigures
+    layer_offset: np.ndarray
+    #: Vertices per layer.
+    layer_size: int
+
+    def drone_vertices(self, formation: str, points: np.ndarray) -> np.ndarray:
+        """``(N,)`` the vertex of point ``points[i]`` of ``formation`` in drone ``i``'s layer."""
+        return self.vertex_of[formation][points] + self.layer_offset
+
+    def goal_columns(self, formation: str) -> np.ndarray:
+        """``(N, P)`` the vertex of each of ``formation``'s points in each drone's layer."""
+        return self.vertex_of[formation][None, :] + self.layer_offset[:, None]
+
+    def point_indices(self, formation: str, vertices: np.ndarray) -> np.ndarray:
+        """Which point of ``formation`` each vertex ``(M,)`` (of any layer) is."""
+        point_of = {int(v): k for k, v in enumerate(self.vertex_of[formation].tolist())}
+        return np.array([point_of[int(v) % self.layer_size] for v in vertices])
 
 
 class PlanningContext:
     """Planning state of one scene (mesh paths relative to ``base_dir``; ``source`` names the
     scene file in messages). Raises :class:`SceneError` at once when a mesh cannot be read.
 
-    The field and roadmap use the fleet's envelope ellipsoid and its largest pair clearance, so
-    one roadmap is conservative for every drone.
+    The field and the roadmap's geometry use the fleet's envelope ellipsoid, so one roadmap is
+    conservative for every drone; its conflicts are per pair of drone shapes (one layer per shape).
     """
 
     def __init__(self, scene: Scene, settings: PlannerSettings, base_dir: Path, *, source: str = "scene",
@@ -121,9 +140,16 @@ class PlanningContext:
         self._check_points_in_field(points)
         full, index = attach_points(base, points, field, pair_envelope, s.roadmap_neighbours, seed=s.roadmap_seed)
         self.seconds["roadmap attach"] = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        layers = layered_roadmap(full, self.clearance.kind_pair_radii)
+        if layers is not full:
+            self.seconds["roadmap layers"] = time.perf_counter() - t0
         splits = np.cumsum([len(f.positions) for f in formations])[:-1]
-        attached = AttachedRoadmap(full, dict(zip((f.name for f in formations), np.split(index, splits), strict=True)),
-                                   RoadmapFigures(full.n_vertices, len(full.edges), full.conflicts.count, cached))
+        vertex_of = dict(zip((f.name for f in formations), np.split(index, splits), strict=True))
+        attached = AttachedRoadmap(layers, vertex_of,
+                                   RoadmapFigures(full.n_vertices, len(full.edges), layers.conflicts.count, cached,
+                                                  len(self.clearance.kind_pair_radii)),
+                                   self.clearance.kind_of * full.n_vertices, full.n_vertices)
         self._attached = (key, attached)
         return attached
 

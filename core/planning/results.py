@@ -122,9 +122,11 @@ class TransitionResult:
 
 @dataclass(frozen=True)
 class RoadmapFigures:
-    """The roadmap a plan used: vertices, edges, conflicting action pairs, whether it was cached."""
+    """The roadmap a plan used: vertices, edges, conflicting action pairs (over all layers),
+    whether it was cached, and its layers (one per drone shape)."""
 
     vertices: int
     edges: int
     conflicts: int
     cached: bool
+    layers: int = 1

@@ -36,32 +36,31 @@ def roadmap_assignment(problem: TransitionProblem, context: PlanningContext,
                        progress: ProgressCallback = no_progress, cancel: CancelToken | None = None) -> Assignment:
     """Goal point per drone: labeled keeps the order; unlabeled and grouped minimise the sum of
     roadmap path lengths (Hungarian method). Raises :class:`PlanningError` naming the drones and
-    points no collision-free path connects, or the formation points closer than the roadmap's
-    pair shape (:func:`_check_roadmap_spacing`)."""
-    _check_roadmap_spacing(problem, context)
+    points no collision-free path connects. Each drone's costs are on its own layer of the roadmap."""
     attached = context.roadmap(progress, cancel)
-    roadmap, vertex_of = attached.roadmap, attached.vertex_of
-    starts = vertex_of[problem.source][problem.occupied]
-    goal_vertices = vertex_of[problem.target]
+    roadmap = attached.roadmap
+    starts = attached.drone_vertices(problem.source, problem.occupied)
+    columns = attached.goal_columns(problem.target)  # (N, P) each goal point in each drone's layer
+    drones = np.arange(len(starts))
     if problem.mode == "labeled":
-        chosen = Assignment(np.arange(len(starts)), float("nan"), "labeled", 0.0)
+        chosen = Assignment(drones, float("nan"), "labeled", 0.0)
     else:
-        cost = roadmap.path_lengths(starts)[:, goal_vertices]
+        cost = np.take_along_axis(roadmap.path_lengths(starts), columns, axis=1)
         grouped = problem.mode == "grouped"
         try:
             chosen = assign_by_cost(cost, problem.start_groups if grouped else None,
                                     problem.goal_groups if grouped else None)
         except ValueError:
             nearest = np.argmin(np.where(np.isfinite(cost), cost, np.inf), axis=1)
-            _check_reachable(problem, context, roadmap, starts, goal_vertices[nearest], nearest)
+            _check_reachable(problem, context, roadmap, starts, columns[drones, nearest], nearest)
             cut_off = np.nonzero(~np.isfinite(cost).any(axis=0))[0]
             points = ", ".join(f"{_point(problem, context, k)} at "
-                               f"{format_xyz(roadmap.vertices[goal_vertices[k]], '.2f')}" for k in cut_off[:5])
+                               f"{format_xyz(roadmap.vertices[columns[0, k]], '.2f')}" for k in cut_off[:5])
             raise PlanningError(
                 f"{problem.where}: no assignment lets every drone reach a goal on the roadmap"
                 + (f"; no drone can reach {points}" + (f" and {len(cut_off) - 5} more" if len(cut_off) > 5 else "")
                    + " (boxed in by obstacles or keep-out boxes?)" if len(cut_off) else "")) from None
-    _check_reachable(problem, context, roadmap, starts, goal_vertices[chosen.goal_of], chosen.goal_of)
+    _check_reachable(problem, context, roadmap, starts, columns[drones, chosen.goal_of], chosen.goal_of)
     return chosen
 
 
@@ -82,12 +81,10 @@ def search_on_roadmap(problem: TransitionProblem, assignment: Assignment, contex
     group) and grouped ones (their groups) may end on each other's goals where the solver
     exchanges them. ``solver`` None: :func:`~.solvers.choose_solver`."""
     attached = context.roadmap(progress, cancel)
-    roadmap, vertex_of = attached.roadmap, attached.vertex_of
-    starts = vertex_of[problem.source][problem.occupied]
-    goal_vertices = vertex_of[problem.target]
-    goals = goal_vertices[assignment.goal_of]
-    groups = None if problem.mode == "labeled" else (
-        np.zeros(len(starts), dtype=np.int64) if problem.mode == "unlabeled" else np.asarray(problem.start_groups))
+    roadmap = attached.roadmap
+    starts = attached.drone_vertices(problem.source, problem.occupied)
+    goals = attached.goal_columns(problem.target)[np.arange(len(starts)), assignment.goal_of]
+    groups = None if problem.mode == "labeled" else _exchange_groups(problem, context.clearance.kind_of)
     settings = context.settings
     solver = solver or choose_solver(settings, len(starts))
     found = solver.solve(roadmap, starts, goals, context.scene.fleet.ids, groups=groups,
@@ -95,10 +92,18 @@ def search_on_roadmap(problem: TransitionProblem, assignment: Assignment, contex
     exchanged = found.goals != goals
     if not exchanged.any():
         return RoadmapSearch(assignment, found)
-    point_of = {int(v): k for k, v in enumerate(goal_vertices.tolist())}
-    goal_of = np.array([point_of[int(v)] for v in found.goals])
+    goal_of = attached.point_indices(problem.target, found.goals)
     method = f"{assignment.method}, then {int(exchanged.sum())} goals exchanged in the search"
     return RoadmapSearch(Assignment(goal_of, float("nan"), method, float("nan")), found)
+
+
+def _exchange_groups(problem: TransitionProblem, shape_of: np.ndarray) -> np.ndarray:
+    """``(N,)`` labels of the drones that may take each other's goals in the search: one group
+    (unlabeled) or the transition's groups, split by drone shape (each shape flies its own layer
+    of the roadmap, so a goal of another layer is out of reach)."""
+    groups = np.zeros(len(shape_of), dtype=np.int64) if problem.mode == "unlabeled" else \
+        np.unique(np.asarray(problem.start_groups), return_inverse=True)[1].ravel()
+    return groups * (int(shape_of.max()) + 1) + shape_of
 
 
 def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bound: float, context: PlanningContext,
@@ -109,8 +114,8 @@ def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bou
     (per-drone QPs on ``executor``, inline when None) unless the settings turn it off.
     ``lower_bound`` (s) is the straight-line bound reported beside it."""
     attached = context.roadmap(progress, cancel)
-    roadmap, vertex_of = attached.roadmap, attached.vertex_of
-    starts = vertex_of[problem.source][problem.occupied]
+    roadmap = attached.roadmap
+    starts = attached.drone_vertices(problem.source, problem.occupied)
     found, assignment = search.found, search.assignment
     ids, settings = context.scene.fleet.ids, context.settings
     positions = _step_positions(roadmap, found.paths)
@@ -173,33 +178,9 @@ def free_space_bound(roadmap: Roadmap, starts: np.ndarray, goals: np.ndarray, li
     return worst
 
 
-def _point(problem: TransitionProblem, context: PlanningContext, k: int, formation: str | None = None) -> str:
-    name = formation or problem.target
-    index = [f.name for f in context.scene.formations].index(name)
-    return f"formations[{index}] ({name!r}).points[{k}]"
-
-
-def _check_roadmap_spacing(problem: TransitionProblem, context: PlanningContext) -> None:
-    """Raise :class:`PlanningError` when two start or two goal points of a roadmap transition are
-    closer than the fleet's largest pair shape. The roadmap's conflicts keep every pair that far
-    apart, so such drones could never leave or reach their points: the search would only run out
-    of time. (The scene loader accepts such points where only smaller drones can stand on them.)"""
-    clearance = context.clearance
-    for formation, points, index in ((problem.source, problem.starts, problem.occupied),
-                                     (problem.target, problem.goal_points, None)):
-        pairs, ratios = clearance.bound_pairs(points, 1.0)
-        if not len(pairs):
-            continue
-        (i, j), r = pairs[np.argmin(ratios)], float(ratios.min())
-        a, b = (i, j) if index is None else (index[i], index[j])
-        raise PlanningError(
-            f"{problem.where}: {_point(problem, context, int(a), formation)} and points[{int(b)}] are "
-            f"{np.linalg.norm(points[i] - points[j]):.2f} m apart ({len(pairs)} such pairs): enough for the drones "
-            f"that stand there, but this transition needs the roadmap (straight lines would meet an obstacle or "
-            f"each other), and the roadmap keeps every pair as far apart as the fleet's two largest drones "
-            f"(ratio {r:.3f} < 1; sideways {clearance.pair_envelope[0]:.2f} m, vertically "
-            f"{clearance.pair_envelope[2]:.2f} m). Space these points that far apart, or let the transition fly "
-            "straight lines")
+def _point(problem: TransitionProblem, context: PlanningContext, k: int) -> str:
+    index = [f.name for f in context.scene.formations].index(problem.target)
+    return f"formations[{index}] ({problem.target!r}).points[{k}]"
 
 
 def _check_reachable(problem: TransitionProblem, context: PlanningContext, roadmap: Roadmap, starts: np.ndarray,
