@@ -14,7 +14,9 @@ from .document import Document
 
 FIELDS = (("radius_xy", "radius xy", " m"), ("radius_z", "radius z", " m"), ("tracking_margin", "margin", " m"),
           ("max_speed_xy", "speed xy", " m/s"), ("max_speed_z", "speed z", " m/s"),
-          ("max_acceleration", "acceleration", " m/s²"))
+          ("max_acceleration", "acceleration", " m/s²"), ("downwash_shift", "downwash shift", " m"))
+#: Fields that may be 0 (the others are radii, speeds and accelerations, which must be positive).
+MAY_BE_ZERO = {"tracking_margin", "downwash_shift"}
 
 
 class FleetPanel(QWidget):
@@ -40,7 +42,7 @@ class FleetPanel(QWidget):
         self.table.setVerticalHeaderLabels([t.name for t in fleet.types])
         for row, t in enumerate(fleet.types):
             for col, (name, _, suffix) in enumerate(FIELDS):
-                spin = QDoubleSpinBox(minimum=0.0 if name == "tracking_margin" else 0.01, maximum=1000.0, decimals=2,
+                spin = QDoubleSpinBox(minimum=0.0 if name in MAY_BE_ZERO else 0.01, maximum=1000.0, decimals=2,
                                       singleStep=0.05, suffix=suffix, value=getattr(t, name))
                 spin.editingFinished.connect(
                     lambda row=row, name=name, spin=spin: self._commit(row, name, spin.value()))

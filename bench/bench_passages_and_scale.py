@@ -30,7 +30,8 @@ def search_comparison(drones: int, folder: Path) -> None:
     path = stress_scenes.write_scene(stress_scenes.wall_crossing(drones), folder / "wall", "wall")
     scene = load_scene(path)
     attached = PlanningContext(scene, scene.planner, path.parent, use_cache=False).roadmap()
-    starts, goals = attached.vertex_of["near"], attached.vertex_of["far"]
+    drones_in_order = np.arange(len(scene.fleet.drones))
+    starts, goals = attached.drone_vertices("near", drones_in_order), attached.drone_vertices("far", drones_in_order)
     t0 = time.perf_counter()
     fast = lacam(attached.roadmap, starts, goals, time_limit=60)
     t_lacam = time.perf_counter() - t0

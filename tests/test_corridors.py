@@ -9,7 +9,7 @@ import trimesh
 from scipy.optimize import linprog, minimize
 
 from core.clearance import ClearanceModel
-from core.obstacles import ClearanceField
+from core.obstacles import ClearanceField, FleetFields
 from core.scene.meshes import SiteMesh
 from core.smoothing.corridors import (
     REACH,
@@ -42,19 +42,27 @@ def _random_steps(rng, n=12, k=3):
     return positions[:, :-1], positions[:, 1:]
 
 
-def test_pair_planes_separate_the_swept_segments_with_the_clearance():
+@pytest.mark.parametrize("rule", ["sums", "shifts and a pair table"])
+def test_pair_planes_separate_the_swept_segments_with_the_clearance(rule):
+    """Random unequal pairs (two shapes; then also a downwash shift on the large one and a pair
+    table entry): every plane separates the two clearance-centre segments with the pair's clearance,
+    checked by LPs over their hulls, and is max-margin (exact distance by scipy.optimize.minimize)."""
     rng = np.random.default_rng(7)
     semi = np.tile([0.3, 0.3, 0.6], (12, 1))
     semi[::3] = [0.4, 0.4, 0.8]  # a mixed fleet
-    clearance = ClearanceModel(semi)
-    envelope = semi.max(axis=0)
+    large = np.all(semi == [0.4, 0.4, 0.8], axis=1)
+    if rule == "sums":
+        clearance = ClearanceModel(semi)
+    else:
+        clearance = ClearanceModel(semi, np.where(large, 0.5, 0.0), large.astype(int),
+                                   {(0, 1): np.array([0.8, 0.8, 1.5])})
     starts, ends = _random_steps(rng)
-    planes = initial_planes(starts, ends, clearance, envelope)
+    planes = initial_planes(starts, ends, clearance)
     assert len(planes.pairs) > 5
     for (i, j, k), r, nu, mid, slack in zip(planes.pairs, planes.radii, planes.normals, planes.middle, planes.slack,
                                             strict=True):
-        seg_i = np.stack([starts[i, k], ends[i, k]]) / r
-        seg_j = np.stack([starts[j, k], ends[j, k]]) / r
+        seg_i = (np.stack([starts[i, k], ends[i, k]]) + clearance.offsets[i]) / r
+        seg_j = (np.stack([starts[j, k], ends[j, k]]) + clearance.offsets[j]) / r
         assert _extreme_over_hull(seg_i, nu, "max") <= mid - 0.5 - slack + 1e-9
         assert _extreme_over_hull(seg_j, nu, "min") >= mid + 0.5 + slack - 1e-9
         # max-margin: the gap along ν equals the segments' distance (closest points by minimize)
@@ -69,7 +77,7 @@ def test_every_close_pair_gets_a_plane():
     semi = np.tile([0.3, 0.3, 0.6], (12, 1))
     clearance = ClearanceModel(semi)
     starts, ends = _random_steps(rng)
-    planes = initial_planes(starts, ends, clearance, semi[0])
+    planes = initial_planes(starts, ends, clearance)
     have = {tuple(p) for p in planes.pairs}
     tube_reach = REACH * np.max(semi[0] / (2 * semi[0]))  # deviation bound in pair-scaled units
     for k in range(starts.shape[1]):
@@ -96,7 +104,7 @@ def test_refined_planes_separate_control_polygons_and_approach_the_hull_distance
     lows = p[..., 0].max(axis=1)
     highs = q[..., 0].min(axis=1)
     old = PairPlanes(pairs, np.ones((m, 3)), np.tile([1.0, 0, 0], (m, 1)), 0.5 * (lows + highs),
-                     np.full(m, 0.0))
+                     np.full(m, 0.0), np.zeros((2, 3)))
     new = refined_planes(old, pieces)
     for s in range(m):
         nu, mid, slack = new.normals[s], new.middle[s], new.slack[s]
@@ -117,7 +125,7 @@ def test_tubes_stay_clear_of_a_mesh_and_rows_are_assembled_per_drone():
     field = ClearanceField(semi, [SiteMesh("wall", wall, ())], np.array([[-5.0, -5.0, 0.0], [5.0, 5.0, 6.0]]))
     starts = np.array([[[0.0, -2.0, 1.0], [0.5, 0.0, 1.0]], [[-1.0, 2.0, 3.0], [-1.0, 2.0, 3.0]]])
     ends = np.array([[[0.5, 0.0, 1.0], [0.8, 2.0, 1.2]], [[-1.0, 2.0, 3.0], [-2.0, 0.0, 3.0]]])
-    tubes = step_tubes(starts, ends, semi, field)
+    tubes = step_tubes(starts, ends, np.tile(semi, (2, 1)), FleetFields.uniform(field, 2))
     rng = np.random.default_rng(0)
     for i in range(2):
         for k in range(2):
@@ -131,7 +139,7 @@ def test_tubes_stay_clear_of_a_mesh_and_rows_are_assembled_per_drone():
             assert len(inside) > 50
             assert field.margins(inside).min() >= -1e-9
             assert np.all(a @ starts[i, k] <= b) and np.all(a @ ends[i, k] <= b)  # the step itself fits
-    planes = initial_planes(starts, ends, ClearanceModel(np.tile(semi, (2, 1))), semi)
+    planes = initial_planes(starts, ends, ClearanceModel(np.tile(semi, (2, 1))))
     normals, offsets, steps, partners = drone_rows(1, tubes, planes)
     assert len(normals) == 12 + len(planes.pairs) and set(partners) <= {-1, 0}
     assert np.allclose(np.linalg.norm(normals, axis=1), 1.0)
@@ -147,7 +155,7 @@ def test_tube_corners_span_the_tube_as_linear_programs_find_it():
     rng = np.random.default_rng(5)
     starts, ends = _random_steps(rng, n=4, k=2)
     envelope = np.array([0.4, 0.4, 0.9])
-    tubes = step_tubes(starts, ends, envelope, None)
+    tubes = step_tubes(starts, ends, np.tile(envelope, (4, 1)), None)
     for i, k in ((0, 0), (1, 1), (3, 0)):
         normals, offsets, corners = tubes.normals[i, k], tubes.offsets[i, k], tubes.corners[i, k]
         assert np.all(corners @ normals.T <= offsets + 1e-9)

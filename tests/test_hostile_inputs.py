@@ -137,6 +137,13 @@ def _passwd(data: dict, _site: Path) -> None:
     data["formations"][1] = {"name": "cube", "csv": "/etc/passwd"}
 
 
+def _pairs(pairs: list[dict]) -> Callable[[dict, Path], None]:
+    def mutate(data: dict, _site: Path) -> None:
+        data["fleet"]["pairs"] = pairs
+
+    return mutate
+
+
 NAN, INF = float("nan"), float("inf")
 SCENE_CASES = [
     SceneCase(
@@ -191,6 +198,16 @@ SCENE_CASES = [
     SceneCase("time limit NaN", lambda d, s: None, 2, "argument --time-limit", ("--time-limit", "nan")),
     SceneCase("infinite objective weight", lambda d, s: None, 2, "weights must be finite", ("--objective", "snap=inf")),
     SceneCase("NaN objective weight", _set("planner.objective", "jerk=nan"), 2, "weights must be finite"),
+    SceneCase("infinite downwash shift", _set("fleet.types.0.downwash_shift", INF), 2,
+              "downwash_shift: Input should be a finite"),
+    SceneCase("negative downwash shift", _set("fleet.types.0.downwash_shift", -0.2), 2, "greater than or equal to 0"),
+    SceneCase("pair naming an unknown type",
+              _pairs([{"types": ["nano-quad", "ghost"], "radius_xy": 0.3, "radius_z": 0.7}]), 2,
+              "fleet.pairs[0].types: unknown drone type"),
+    SceneCase("pair radius as a string", _pairs([{"types": ["nano-quad", "nano-quad"], "radius_xy": "0.3",
+                                                  "radius_z": 0.7}]), 2, "radius_xy: Input should be a valid number"),
+    SceneCase("pair radius 1e308", _pairs([{"types": ["nano-quad", "nano-quad"], "radius_xy": 0.3,
+                                            "radius_z": 1e308}]), 2, "less than or equal to"),
     SceneCase("unchanged lab sample", lambda d, s: None, 0, "Verification PASSED"),
 ]
 

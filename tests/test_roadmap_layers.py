@@ -3,6 +3,7 @@ vertex pair by numpy, segments by dense sampling), and a search that lets small 
 a large pair could not."""
 
 import numpy as np
+import pytest
 
 from core.clearance import ClearanceModel
 from core.roadmap.conflicts import annotate
@@ -26,30 +27,40 @@ def _sampled_distance(a0, a1, b0, b1, samples=200) -> float:
     return float(np.linalg.norm(pa[:, None] - pb[None], axis=-1).min())
 
 
-def test_layer_conflicts_match_brute_force_under_each_pair_shape():
+@pytest.mark.parametrize("shift", [0.0, 0.6])
+def test_layer_conflicts_match_brute_force_under_each_pair_shape(shift):
+    """Two layers with their own vertices (as two drone shapes' roadmaps are): conflicts within and
+    across layers against numpy over every vertex pair and dense sampling of segment pairs, between
+    clearance centres (the large kind's centre ``shift`` metres below it)."""
     rng = np.random.default_rng(3)
-    base = _random_roadmap(rng)
-    model = ClearanceModel(np.stack([SMALL, LARGE]))
-    radii = model.kind_pair_radii
-    layered = layered_roadmap(base, radii)
-    v, e = base.n_vertices, len(base.edges)
-    assert layered.n_vertices == 2 * v and len(layered.edges) == 2 * e
+    layers = [_random_roadmap(rng), _random_roadmap(rng)]
+    model = ClearanceModel(np.stack([SMALL, LARGE]), np.array([0.0, shift]))
+    radii, offsets = model.kind_pair_radii, model.kind_offsets
+    layers = [Roadmap(r.vertices, r.edges, annotate(r.vertices + offsets[k], r.edges, radii[k, k]))
+              for k, r in enumerate(layers)]
+    layered, starts = layered_roadmap(layers, radii, offsets)
+    v, e = layers[0].n_vertices, len(layers[0].edges)
+    assert layered.n_vertices == 2 * v and len(layered.edges) == 2 * e and list(starts) == [0, v, 2 * v]
     table = layered.action_conflicts.toarray()
     for k in range(2):
         for m in range(2):
-            p = base.vertices / radii[k, m]
+            p = (layers[k].vertices + offsets[k]) / radii[k, m]
+            q = (layers[m].vertices + offsets[m]) / radii[k, m]
             # vertex–vertex: exact, by numpy over every pair
-            d = np.linalg.norm(p[:, None] - p[None], axis=-1)
-            assert np.array_equal(table[k * v:(k + 1) * v, m * v:(m + 1) * v], d < 1.0 - 1e-12)
+            d = np.linalg.norm(p[:, None] - q[None], axis=-1)
+            expected = d < 1.0 - 1e-12
+            if k == m:
+                np.fill_diagonal(expected, True)  # an action always conflicts with itself
+            assert np.array_equal(table[k * v:(k + 1) * v, m * v:(m + 1) * v], expected)
             # edge–edge: dense sampling (an upper bound on the distance; pairs near 1 are skipped)
+            ek, em = layers[k].edges, layers[m].edges
             for a in range(0, e, 3):
                 for b in range(0, e, 3):
-                    dist = _sampled_distance(p[base.edges[a, 0]], p[base.edges[a, 1]], p[base.edges[b, 0]],
-                                             p[base.edges[b, 1]])
-                    if abs(dist - 1.0) > 0.03:
+                    dist = _sampled_distance(p[ek[a, 0]], p[ek[a, 1]], q[em[b, 0]], q[em[b, 1]])
+                    if abs(dist - 1.0) > 0.03 and not (k == m and a == b):
                         assert table[2 * v + k * e + a, 2 * v + m * e + b] == (dist < 1.0)
-    # one shape: the roadmap itself
-    assert layered_roadmap(base, radii[:1, :1]) is base
+    # one kind: the roadmap itself
+    assert layered_roadmap(layers[:1], radii[:1, :1], offsets[:1])[0] is layers[0]
 
 
 def test_small_drones_wait_closer_together_than_a_large_pair_but_never_near_the_large_one():
@@ -63,9 +74,10 @@ def test_small_drones_wait_closer_together_than_a_large_pair_but_never_near_the_
     edges = np.array([(i, i + 1) for i in range(n - 1)] + [(n + i, n + i + 1) for i in range(n - 1)]
                      + [(i, n + i) for i in range(n)])
     model = ClearanceModel(np.stack([SMALL, SMALL, LARGE]))
-    base = Roadmap(vertices, edges, annotate(vertices, edges, model.pair_envelope))
-    layered = layered_roadmap(base, model.kind_pair_radii)
-    offset = model.kind_of * base.n_vertices
+    radii = model.kind_pair_radii
+    layers = [Roadmap(vertices, edges, annotate(vertices, edges, radii[k, k])) for k in range(2)]
+    layered, first = layered_roadmap(layers, radii, model.kind_offsets)
+    offset = first[model.kind_of]
     starts = np.array([4, 5, 0]) + offset  # the small pair side by side at 0.8 m, the large drone at one end
     goals = np.array([4, 5, n - 1]) + offset  # the large drone must get past them to the other end
     result = ecbs(layered, starts, goals, w=1.5, time_limit=20.0)
@@ -73,4 +85,5 @@ def test_small_drones_wait_closer_together_than_a_large_pair_but_never_near_the_
     padded = np.array([list(p) + [p[-1]] * (steps + 1 - len(p)) for p in result.paths])
     assert padded[2, -1] == goals[2] and check_discrete_plan(layered.vertices[padded], model) == []
     # under the single largest pair shape the small pair's starts already conflict
+    base = Roadmap(vertices, edges, annotate(vertices, edges, model.pair_envelope))
     assert base.in_conflict(np.array([4]), np.array([5]))[0]

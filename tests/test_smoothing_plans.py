@@ -115,7 +115,7 @@ def test_a_drone_whose_qp_fails_keeps_its_earlier_curve_and_the_rest_are_smoothe
     spec = spec_from_scene(scene)
     options = SmoothingOptions(9, 3, {"snap": 1.0})
     clearance = scene.fleet.clearance
-    outcome = smooth_transition("test", positions, clearance, clearance.envelope, None,
+    outcome = smooth_transition("test", positions, clearance, None,
                                 scene.fleet.limits * 0.95, spec, options, InlineExecutor())
     first = outcome.history[0]
     assert outcome.pieces is not None and first.accepted and first.verified and first.fell_back == ("d1",)
@@ -169,7 +169,7 @@ def test_an_iterate_that_fails_verification_is_never_kept():
     strict = VerificationSpec(spec.drone_ids, spec.semi_axes * 10.0, spec.limits, spec.flight_volume)
     line = np.c_[[-4.5, -1.5, 1.5, 4.5], np.zeros(4), np.full(4, 3.0)]
     positions = np.stack([line, line + [0, 2.5, 0.5], line + [0, 5.0, 0]], axis=1)
-    outcome = smooth_transition("test", positions, ClearanceModel(spec.semi_axes), spec.semi_axes[0], None,
+    outcome = smooth_transition("test", positions, ClearanceModel(spec.semi_axes), None,
                                 spec.limits * 0.95, strict, SmoothingOptions(9, 3, {"snap": 1.0}), InlineExecutor())
     assert outcome.pieces is None and "failed verification" in outcome.note
     assert outcome.history and not outcome.history[0].accepted

@@ -6,7 +6,7 @@ import numpy as np
 import trimesh
 
 from core.clearance import ClearanceModel
-from core.obstacles import ClearanceField
+from core.obstacles import ClearanceField, FleetFields
 from core.planning.string_pulling import pull_strings
 from core.roadmap.build import RoadmapSettings, build_roadmap
 from core.scene.meshes import SiteMesh
@@ -64,7 +64,7 @@ def test_pulled_paths_around_a_pillar_keep_clear_of_it_by_trimeshs_exact_distanc
     steps = max(len(p) for p in result.paths)
     positions = roadmap.vertices[np.array([list(p) + [p[-1]] * (steps - len(p)) for p in result.paths])]
     model = ClearanceModel(np.tile(AXES, (12, 1)))
-    pulled = pull_strings(positions, model, field)
+    pulled = pull_strings(positions, model, FleetFields.uniform(field, len(positions)))
 
     assert (pulled[:, [0, -1]] == positions[:, [0, -1]]).all()
     assert check_discrete_plan(pulled, model) == []

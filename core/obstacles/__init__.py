@@ -2,5 +2,6 @@
 flight volume (the verifier uses its own exact check instead)."""
 
 from .field import ClearanceField
+from .fleet import FleetFields
 
-__all__ = ["ClearanceField"]
+__all__ = ["ClearanceField", "FleetFields"]

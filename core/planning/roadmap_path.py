@@ -122,7 +122,7 @@ def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bou
     _check_steps(problem, positions, context, "discrete plan")
     positions = _moving_steps(positions)
     roadmap_length = _fleet_path_length(positions)
-    positions = _moving_steps(pull_strings(positions, context.clearance, context.field))  # a dodge may vanish
+    positions = _moving_steps(pull_strings(positions, context.clearance, context.fields))  # a dodge may vanish
     _check_steps(problem, positions, context, "straightened plan")
     durations, pieces = _stop_and_go(positions, step_profile(problem.profile, settings.degree), settings.degree,
                                      context.limits)
@@ -130,8 +130,8 @@ def plan_on_roadmap(problem: TransitionProblem, search: RoadmapSearch, lower_bou
     method, smoothing = TransitionMethod.STOP_AND_GO, None
     if settings.smoothing and len(durations):
         options = SmoothingOptions(settings.degree, settings.smoothing_iterations, parse_objective(settings.objective))
-        outcome = smooth_transition(problem.where, positions, context.clearance, context.clearance.envelope,
-                                    context.field, context.limits, context.spec, options,
+        outcome = smooth_transition(problem.where, positions, context.clearance, context.fields,
+                                    context.limits, context.spec, options,
                                     executor or InlineExecutor(), progress=progress, cancel=cancel)
         note = outcome.note
         if outcome.pieces is not None and outcome.durations.sum() <= durations.sum():

@@ -23,9 +23,9 @@ import numpy as np
 
 from ..clearance import ClearanceModel
 from ..geometry import segment_segment_closest
-from ..obstacles import ClearanceField
+from ..obstacles import FleetFields
 
-#: Obstacle margin (envelope-scaled units) beyond which a straighter segment need not keep more.
+#: Obstacle margin (units of the drone's own clearance radii) beyond which a straighter segment need not keep more.
 MARGIN_CAP = 1.0
 #: Share of the old steps' (capped) obstacle margin a straighter segment must keep. Cutting the
 #: corner of a path that hugs an obstacle narrows the tube there but shortens the flight: at 1.0
@@ -38,24 +38,25 @@ PAIR_CAP = 1.2
 PASSES = 2
 
 
-def pull_strings(positions: np.ndarray, clearance: ClearanceModel, field: ClearanceField | None,
+def pull_strings(positions: np.ndarray, clearance: ClearanceModel, fields: FleetFields | None,
                  passes: int = PASSES) -> np.ndarray:
     """``positions`` ``(N, K + 1, 3)`` (m, drone positions at the step ends) with runs of steps
-    straightened as the module docstring says; the ends of every drone stay where they were."""
+    straightened as the module docstring says; the ends of every drone stay where they were.
+    ``fields`` gives each drone's own clearance field (None: no obstacles)."""
     out = np.array(positions, dtype=np.float64, copy=True)
     n, ends = out.shape[:2]
     if ends < 3:
         return out
-    margins = _step_margins(out, field)
+    margins = _step_margins(out, fields)
     boxes = _RangeBoxes(out)
     for _ in range(passes):
         changed = False
         for i in range(n):
             a = 0
             while a < ends - 2:
-                b = _farthest_run(out, margins, boxes, clearance, field, i, a)
+                b = _farthest_run(out, margins, boxes, clearance, fields, i, a)
                 if b > a + 1 and _straighten(out, i, a, b):
-                    margins[i, a:b] = _margins(field, out[i, a:b], out[i, a + 1:b + 1])
+                    margins[i, a:b] = _margins(fields, i, out[i, a:b], out[i, a + 1:b + 1])
                     boxes.update(i, out[i])
                     changed = True
                 a = max(b, a + 1)
@@ -98,14 +99,14 @@ class _RangeBoxes:
 
 
 def _farthest_run(positions: np.ndarray, margins: np.ndarray, boxes: _RangeBoxes, clearance: ClearanceModel,
-                  field: ClearanceField | None, i: int, a: int) -> int:
+                  fields: FleetFields | None, i: int, a: int) -> int:
     """A step ``b`` > ``a`` such that drone ``i``'s run ``a … b`` can be straightened (``a + 1``
     where none can): galloping then bisection over ``b``, a few window checks per run."""
     last = positions.shape[1] - 1
 
     def straightens(b: int) -> bool:
         needed = max(MARGIN_SHARE * min(float(margins[i, a:b].min()), MARGIN_CAP), 0.0)  # never into an obstacle
-        return bool(_margins(field, positions[i, a][None], positions[i, b][None])[0] >= needed) and \
+        return bool(_margins(fields, i, positions[i, a][None], positions[i, b][None])[0] >= needed) and \
             _run_clear(positions, boxes, clearance, i, a, b)
 
     good, stride = a + 1, 1
@@ -124,11 +125,12 @@ def _run_clear(positions: np.ndarray, boxes: _RangeBoxes, clearance: ClearanceMo
     """Whether drone ``i`` flying straight from step ``a`` to ``b`` keeps, with every other drone
     at every step, a separation ratio of at least the smaller of the old one and :data:`PAIR_CAP`
     (and at least 1). Drones whose boxes over the run, and steps whose boxes, stay :data:`PAIR_CAP`
-    pair envelopes away from the old path's (the step's old and new segments') box cannot come
-    closer than that and are not measured."""
+    pair envelopes (plus the spread of clearance-centre shifts) away from the old path's (the
+    step's old and new segments') box cannot come closer than that and are not measured. Pairs are
+    measured between clearance centres (:meth:`ClearanceModel.centres`)."""
     old = positions[i, a:b + 1]
     new = _straight(positions[i], a, b)  # on the chord of two old points: inside the old box
-    reach = PAIR_CAP * clearance.pair_envelope
+    reach = PAIR_CAP * clearance.pair_envelope + [0.0, 0.0, float(np.ptp(clearance.kind_shift))]
     low, high = old.min(axis=0) - reach, old.max(axis=0) + reach
     others_low, others_high = boxes.over(a, b)
     others = np.nonzero(np.all((others_low <= high) & (others_high >= low), axis=1))[0]
@@ -146,7 +148,8 @@ def _run_clear(positions: np.ndarray, boxes: _RangeBoxes, clearance: ClearanceMo
         return True
     j = others[m]
     r = clearance.radii(np.full(len(j), i), j)
-    q0, q1 = window[m, k] / r, window[m, k + 1] / r
+    shift = clearance.offsets[j] - clearance.offsets[i]  # the other's centre, in drone i's frame
+    q0, q1 = (window[m, k] + shift) / r, (window[m, k + 1] + shift) / r
     before = _gaps(old[k] / r, old[k + 1] / r, q0, q1)
     after = _gaps(new[k] / r, new[k + 1] / r, q0, q1)
     return bool(np.all(after >= np.maximum(np.minimum(before, PAIR_CAP), 1.0)))
@@ -178,11 +181,16 @@ def _straighten(positions: np.ndarray, i: int, a: int, b: int) -> bool:
     return True
 
 
-def _step_margins(positions: np.ndarray, field: ClearanceField | None) -> np.ndarray:
-    """Obstacle margins ``(N, K)`` of every step."""
+def _step_margins(positions: np.ndarray, fields: FleetFields | None) -> np.ndarray:
+    """Obstacle margins ``(N, K)`` of every step, each drone in its own field."""
     n, ends = positions.shape[:2]
-    return _margins(field, positions[:, :-1].reshape(-1, 3), positions[:, 1:].reshape(-1, 3)).reshape(n, ends - 1)
+    drones = np.repeat(np.arange(n), ends - 1)
+    return _margins(fields, drones, positions[:, :-1].reshape(-1, 3), positions[:, 1:].reshape(-1, 3)
+                    ).reshape(n, ends - 1)
 
 
-def _margins(field: ClearanceField | None, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    return np.full(len(a), np.inf) if field is None else field.segment_margins(a, b)
+def _margins(fields: FleetFields | None, drones: np.ndarray | int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Segment margins ``(M,)`` of ``a``–``b`` ``(M, 3)`` flown by ``drones`` (one index or ``(M,)``)."""
+    if fields is None:
+        return np.full(len(a), np.inf)
+    return fields.segment_margins(np.broadcast_to(drones, (len(a),)), a, b)

@@ -165,15 +165,21 @@ def approach_samples(field: ClearanceField, points: np.ndarray, pair_envelope: n
 
 
 def attach_points(roadmap: Roadmap, points: np.ndarray, field: ClearanceField, pair_envelope: np.ndarray,
-                  neighbours: int, approach: int = APPROACH_SAMPLES, seed: int = 0) -> tuple[Roadmap, np.ndarray]:
+                  neighbours: int, approach: int = APPROACH_SAMPLES, seed: int = 0, attach: np.ndarray | None = None
+                  ) -> tuple[Roadmap, np.ndarray]:
     """``roadmap`` with ``points`` ``(P, 3)`` added as vertices (each joined to its nearest
     neighbours by clear edges, conflicts extended) and the vertex index of each point ``(P,)``.
-    ``approach`` free samples per point are added around them first (:func:`approach_samples`)."""
+    ``approach`` free samples per point are added around them first (:func:`approach_samples`).
+    Points where ``attach`` ``(P,)`` is False (no drone of this roadmap's shape can stand there)
+    become vertices without edges or approach samples: present, so indices stay aligned, but unreachable."""
     n_old, e_old = roadmap.n_vertices, len(roadmap.edges)
-    extra = approach_samples(field, points, pair_envelope, approach, seed)
+    attach = np.ones(len(points), dtype=bool) if attach is None else np.asarray(attach, dtype=bool)
+    extra = approach_samples(field, points[attach], pair_envelope, approach, seed)
     vertices = np.concatenate([roadmap.vertices, points, extra])
     index = np.arange(n_old, n_old + len(points))
-    added = np.arange(n_old, len(vertices))
-    edges = np.concatenate([roadmap.edges, clear_neighbour_edges(field, vertices, neighbours, among=added)])
+    added = np.r_[index[attach], np.arange(n_old + len(points), len(vertices))]
+    edges = clear_neighbour_edges(field, vertices, neighbours, among=added)
+    isolated = index[~attach]
+    edges = np.concatenate([roadmap.edges, edges[~np.isin(edges, isolated).any(axis=1)]])
     conflicts = annotate_added(vertices, edges, n_old, e_old, pair_envelope)
     return Roadmap(vertices, edges, roadmap.conflicts.merged(conflicts)), index

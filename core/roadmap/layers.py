@@ -1,54 +1,69 @@
-"""One roadmap layer per drone shape, so that the search keeps each pair only as far apart as its
-own pair shape needs.
+"""One roadmap layer per drone kind, so that each drone flies a roadmap built for its own shape and
+the search keeps each pair only as far apart as its own pair shape needs.
 
 The multi-agent search knows one conflict table between actions. For a fleet of ``K`` clearance
-shapes the roadmap is copied ``K`` times: drones of shape ``k`` move only on layer ``k``, and an
-action of layer ``k`` conflicts with one of layer ``l`` when the swept volumes touch under the
-pair shape of ``k`` and ``l`` (:mod:`.conflicts`, in coordinates divided by those pair half-axes).
-Two light drones may then stand on points a heavy pair could not, while every cross-shape pair
-keeps its own, larger clearance. The layers never connect, so the search needs no change. A fleet
-of one shape keeps its single roadmap.
+kinds (:class:`core.clearance.ClearanceModel`) each kind has its own roadmap, sampled and checked
+against obstacles with its own clearance ellipsoid: a light scout's layer passes a gap that the
+heavy drone's layer has no vertex in. Drones of kind ``k`` move only on layer ``k``; an action of
+layer ``k`` conflicts with one of layer ``m`` when the swept volumes touch under the pair shape of
+``k`` and ``m`` (:mod:`.conflicts`, between clearance centres, in coordinates divided by those
+pair half-axes). The layers never connect, so the search needs no change. A fleet of one kind
+keeps its single roadmap.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .conflicts import ConflictPairs, annotate, edge_edge, vertex_edge, vertex_vertex
+from .conflicts import ConflictPairs, edge_edge, vertex_edge, vertex_vertex
 from .graph import Roadmap
 
 
-def layered_roadmap(roadmap: Roadmap, kind_pair_radii: np.ndarray) -> Roadmap:
-    """``K`` copies of ``roadmap`` (vertex ``v`` of layer ``k`` is ``k V + v``, edge ``e`` is
-    ``k E + e``) with conflicts under ``kind_pair_radii`` ``(K, K, 3)`` metres (symmetric); the
-    roadmap itself when ``K == 1``."""
-    shapes = len(kind_pair_radii)
-    if shapes == 1:
-        return roadmap
-    v, e = roadmap.n_vertices, len(roadmap.edges)
+def layered_roadmap(layers: list[Roadmap], kind_pair_radii: np.ndarray, kind_offsets: np.ndarray
+                    ) -> tuple[Roadmap, np.ndarray]:
+    """The ``K`` ``layers`` (each with its own conflicts under its kind's own pair shape) as one
+    roadmap, with cross-layer conflicts under ``kind_pair_radii`` ``(K, K, 3)`` metres between
+    clearance centres (vertex + ``kind_offsets`` ``(K, 3)`` metres); and ``(K + 1,)`` the first
+    vertex of each layer (vertex ``v`` of layer ``k`` is ``starts[k] + v``). A single layer is
+    returned as it is."""
+    vertex_starts = np.cumsum([0] + [layer.n_vertices for layer in layers])
+    if len(layers) == 1:
+        return layers[0], vertex_starts
+    edge_starts = np.cumsum([0] + [len(layer.edges) for layer in layers])
     parts: list[ConflictPairs] = []
-    for k in range(shapes):
-        own = annotate(roadmap.vertices, roadmap.edges, kind_pair_radii[k, k])
-        parts.append(ConflictPairs(own.vv + k * v, own.ve + [k * v, k * e], own.ee + k * e))
-        for m in range(k + 1, shapes):
-            parts.append(_across(roadmap, kind_pair_radii[k, m], (k, m), (v, e)))
+    for k, layer in enumerate(layers):
+        own = layer.conflicts
+        parts.append(ConflictPairs(own.vv + vertex_starts[k], own.ve + [vertex_starts[k], edge_starts[k]],
+                                   own.ee + edge_starts[k]))
+        for m in range(k + 1, len(layers)):
+            across = _across(layer, layers[m], kind_pair_radii[k, m], kind_offsets[k], kind_offsets[m])
+            vk, vm, ek, em = vertex_starts[k], vertex_starts[m], edge_starts[k], edge_starts[m]
+            parts.append(ConflictPairs(across.vv + [vk, vm],
+                                       np.concatenate([across.ve[0] + [vk, em], across.ve[1] + [vm, ek]]),
+                                       across.ee + [ek, em]))
     conflicts = parts[0]
     for p in parts[1:]:
         conflicts = conflicts.merged(p)
-    return Roadmap(np.tile(roadmap.vertices, (shapes, 1)),
-                   np.concatenate([roadmap.edges + k * v for k in range(shapes)]), conflicts)
+    vertices = np.concatenate([layer.vertices for layer in layers])
+    edges = np.concatenate([layer.edges + vertex_starts[k] for k, layer in enumerate(layers)])
+    return Roadmap(vertices, edges.reshape(-1, 2), conflicts), vertex_starts
 
 
-def _across(roadmap: Roadmap, pair_radii: np.ndarray, layers: tuple[int, int], sizes: tuple[int, int]
-            ) -> ConflictPairs:
-    """Conflicts between the actions of layer ``k`` and those of layer ``m > k`` (every ordered
-    pair of the roadmap's actions, the same vertex or edge included)."""
-    (k, m), (v, e) = layers, sizes
-    p = roadmap.vertices / pair_radii
-    s0, s1 = p[roadmap.edges[:, 0]], p[roadmap.edges[:, 1]]
-    vv = vertex_vertex(p, p)
-    ve = vertex_edge(p, s0, s1)  # the geometry is the same whichever layer holds the vertex
-    ee = edge_edge(s0, s1, s0, s1)
-    return ConflictPairs(vv + [k * v, m * v],
-                         np.concatenate([ve + [k * v, m * e], ve + [m * v, k * e]]),
-                         ee + [k * e, m * e])
+class _Across:
+    """Conflicts between two layers in their own indices: ``vv`` (vertex of the first, vertex of
+    the second), ``ve`` = (first's vertices × second's edges, second's vertices × first's edges),
+    ``ee`` (edge of the first, edge of the second)."""
+
+    def __init__(self, vv: np.ndarray, ve: tuple[np.ndarray, np.ndarray], ee: np.ndarray):
+        self.vv, self.ve, self.ee = vv, ve, ee
+
+
+def _across(first: Roadmap, second: Roadmap, pair_radii: np.ndarray, first_offset: np.ndarray,
+            second_offset: np.ndarray) -> _Across:
+    """Every conflict between an action of ``first`` and one of ``second`` (the same place
+    included), measured between clearance centres in units of ``pair_radii`` ``(3,)``."""
+    p = (first.vertices + first_offset) / pair_radii
+    q = (second.vertices + second_offset) / pair_radii
+    p0, p1 = p[first.edges[:, 0]], p[first.edges[:, 1]]
+    q0, q1 = q[second.edges[:, 0]], q[second.edges[:, 1]]
+    return _Across(vertex_vertex(p, q), (vertex_edge(p, q0, q1), vertex_edge(q, p0, p1)), edge_edge(p0, p1, q0, q1))

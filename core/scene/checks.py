@@ -56,21 +56,40 @@ def check_scene(scene: Scene, source: str, base_dir: Path, meshes: tuple[SiteMes
 
 
 def check_points_clear_of_meshes(scene: Scene, meshes: tuple[SiteMesh, ...], source: str) -> list[tuple[str, str]]:
-    """Exact (trimesh) check that no formation point's envelope ellipsoid touches a mesh, or lies
-    inside a watertight one; one problem per point, naming the formation, point and mesh."""
-    envelope = scene.fleet.clearance.envelope
+    """Exact (trimesh) check that no formation point's clearance ellipsoid touches a mesh, or lies
+    inside a watertight one, for every drone shape that can stand on the point
+    (:func:`~core.scene.occupants.possible_shapes`); one problem per point, naming the formation,
+    point and mesh."""
+    clearance = scene.fleet.clearance
+    occupants = possible_shapes(scene)
+    axes_list = np.unique(clearance.kind_axes, axis=0)
     problems = []
     for m in meshes:
-        scaled = trimesh.Trimesh(m.mesh.vertices / envelope, m.mesh.faces, process=False)
         for i, f in enumerate(scene.formations):
-            p = f.positions / envelope
-            distance = trimesh.proximity.closest_point(scaled, p)[1]
-            inside = scaled.contains(p) if m.watertight else np.zeros(len(p), dtype=bool)
-            for k in np.nonzero(inside | (distance < 1.0))[0]:
-                why = "is inside" if inside[k] else f"is too close to ({distance[k]:.2f} of the clearance)"
+            worst = np.full(len(f.points), np.inf)
+            inside = np.zeros(len(f.points), dtype=bool)
+            for axes in axes_list:
+                kinds = np.all(clearance.kind_axes == axes, axis=1)
+                rows = np.nonzero(occupants[f.name][:, kinds].any(axis=1))[0]
+                if not len(rows):
+                    continue
+                scaled = trimesh.Trimesh(m.mesh.vertices / axes, m.mesh.faces, process=False)
+                p = f.positions[rows] / axes
+                worst[rows] = np.minimum(worst[rows], trimesh.proximity.closest_point(scaled, p)[1])
+                if m.watertight:
+                    inside[rows] |= scaled.contains(p)
+            for k in np.nonzero(inside | (worst < 1.0))[0]:
+                why = "is inside" if inside[k] else f"is too close to ({worst[k]:.2f} of the clearance)"
                 problems.append((f"{source}: formations[{i}] ({f.name!r}).points[{k}]",
                                  f"{format_xyz(f.positions[k], '.2f')} {why} mesh {m.name!r}"))
     return problems
+
+
+def occupant_axes(kind_axes: np.ndarray, occupants: np.ndarray) -> np.ndarray:
+    """``(P, 3)`` the largest clearance half-axes (metres) of the drone kinds ``kind_axes``
+    ``(K, 3)`` that can stand on each point (``occupants`` ``(P, K)`` from
+    :func:`~core.scene.occupants.possible_shapes`)."""
+    return np.where(occupants[:, :, None], kind_axes[None], 0.0).max(axis=1)
 
 
 def _duplicates(names: list[str]) -> list[str]:
@@ -119,8 +138,48 @@ def drone_type_problem(t: DroneType) -> str | None:
 
 
 def _check_fleet(scene: Scene, source: str) -> list[tuple[str, str]]:
-    return [(f"{source}: fleet.types[{k}].radius_z", problem) for k, t in enumerate(scene.fleet.types)
-            if (problem := drone_type_problem(t)) is not None]
+    fleet = scene.fleet
+    out = [(f"{source}: fleet.types[{k}].radius_z", problem) for k, t in enumerate(fleet.types)
+           if (problem := drone_type_problem(t)) is not None]
+    index = {t.name: k for k, t in enumerate(fleet.types)}
+    seen: dict[frozenset[str], int] = {}
+    for k, pair in enumerate(fleet.pairs):
+        where = f"{source}: fleet.pairs[{k}]"
+        unknown = [name for name in pair.types if name not in index]
+        if unknown:
+            out.append((f"{where}.types", f"unknown drone type {unknown[0]!r}"))
+            continue
+        key = frozenset(pair.types)
+        if key in seen:
+            out.append((f"{where}.types", f"the pair {pair.types[0]!r}, {pair.types[1]!r} is already given in "
+                        f"fleet.pairs[{seen[key]}]"))
+        seen.setdefault(key, k)
+        if pair.radius_z <= pair.radius_xy:
+            out.append((f"{where}.radius_z", f"must exceed radius_xy ({pair.radius_z} <= {pair.radius_xy}): rotor "
+                        "downwash needs more vertical than horizontal spacing"))
+    return out or _check_shifts(scene, source)
+
+
+def _check_shifts(scene: Scene, source: str) -> list[tuple[str, str]]:
+    """A downwash shift difference must stay below the pair's vertical half-axis: otherwise two
+    drones at one spot would not even conflict."""
+    fleet = scene.fleet
+    index = {t.name: k for k, t in enumerate(fleet.types)}
+    first: dict[str, int] = {}  # a drone of each type that flies
+    for i, d in enumerate(fleet.drones):
+        first.setdefault(d.type, i)
+    out = []
+    for a, i in first.items():
+        for b, j in first.items():
+            difference = fleet.types[index[a]].downwash_shift - fleet.types[index[b]].downwash_shift
+            vertical = float(fleet.clearance.radii(np.array([i]), np.array([j]))[0, 2])
+            if difference >= vertical:
+                out.append((f"{source}: fleet.types[{index[a]}].downwash_shift",
+                            f"{fleet.types[index[a]].downwash_shift} m is {difference:.3f} m more than {b!r}'s, "
+                            f"which reaches the pair's whole vertical clearance ({vertical:.3f} m): a {b!r} drone "
+                            "just above it would need no room at all; use a smaller shift or a larger fleet.pairs "
+                            "entry"))
+    return out
 
 
 def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
@@ -158,10 +217,11 @@ def _check_formations(scene: Scene, source: str) -> list[tuple[str, str]]:
         if f.groups is not None and len(f.groups) != len(f.points):
             out.append((f"{where}.groups", f"has {len(f.groups)} labels for {len(f.points)} points"))
         p = f.positions
+        axes = occupant_axes(clearance.kind_axes, occupants[f.name])
         outside = np.nonzero(np.any((p < volume[0]) | (p > volume[1]), axis=1))[0]
         out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} is outside the flight volume") for i in outside])
         for box in scene.site.keep_out:
-            hit = np.nonzero(box_distance_ratio(p, box.bounds, clearance.envelope) < 1.0)[0]
+            hit = np.nonzero(box_distance_ratio(p, box.bounds, axes) < 1.0)[0]
             out += _listed([(f"{where}.points[{i}]", f"{format_xyz(p[i])} puts a drone's clearance ellipsoid inside "
                              f"keep-out box {box.name!r}") for i in hit])
         pairs, ratios = crowded_pairs(p, clearance, occupants[f.name])

@@ -73,6 +73,11 @@ def scene_to_dict(scene: Scene, inline_csv: bool = False) -> dict:
     for tr in data["timeline"]["transitions"]:
         if tr.get("profile") is None:
             tr.pop("profile")  # planner.profile applies
+    for t in data["fleet"]["types"]:
+        if t["downwash_shift"] == 0.0:
+            t.pop("downwash_shift")  # the default: a symmetric clearance
+    if not data["fleet"]["pairs"]:
+        data["fleet"].pop("pairs")
     return data
 
 

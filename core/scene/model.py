@@ -138,6 +138,10 @@ class DroneType:
     max_speed_z: Speed
     max_acceleration: Acceleration
     tracking_margin: Margin = 0.0
+    #: How far below the drone its clearance ellipsoid's centre sits, metres (downwash of a heavier
+    #: airframe): against a drone of smaller shift it needs the difference more room below it and
+    #: as much less above it. Equal shifts keep pairs symmetric (see :mod:`core.clearance`).
+    downwash_shift: Margin = 0.0
 
     @property
     def semi_axes(self) -> np.ndarray:
@@ -154,10 +158,31 @@ class Drone:
     type: Name
 
 
+PairRadius = _finite(ge=0.01, le=2 * MAX_RADIUS_M)
+
+
+@dataclass(config=_STRICT)
+class PairClearance:
+    """The separation two drone types keep, replacing the sum of their own radii: ``radius_xy``
+    sideways and ``radius_z`` vertically between their clearance centres (metres), to which both
+    types' tracking margins are added. ``types`` names the two (the same name twice: a type with itself)."""
+
+    types: tuple[Name, Name]
+    radius_xy: PairRadius
+    radius_z: PairRadius
+
+    def semi_axes(self, margins: float) -> np.ndarray:
+        """Pair half-axes ``(3,)`` in metres with the two types' tracking ``margins`` (their sum) added."""
+        return np.array([self.radius_xy, self.radius_xy, self.radius_z]) + margins
+
+
 @dataclass(config=_STRICT)
 class Fleet:
+    """The drone types, the drones, and optional per-pair separations (:class:`PairClearance`)."""
+
     types: Annotated[tuple[DroneType, ...], Field(min_length=1, max_length=MAX_DRONE_TYPES)]
     drones: Annotated[tuple[Drone, ...], Field(min_length=1)]
+    pairs: Annotated[tuple[PairClearance, ...], Field(max_length=MAX_DRONE_TYPES * (MAX_DRONE_TYPES + 1) // 2)] = ()
 
     @cached_property
     def type_of(self) -> tuple[DroneType, ...]:
@@ -172,8 +197,16 @@ class Fleet:
 
     @cached_property
     def clearance(self) -> ClearanceModel:
-        """The fleet's clearance model (pair shapes, envelope), built once."""
-        return ClearanceModel(self.semi_axes)
+        """The fleet's clearance model (pair shapes with the per-pair table, downwash shifts,
+        envelope), built once. Pairs naming unknown types are left out (the scene checks report them)."""
+        index = {t.name: k for k, t in enumerate(self.types)}
+        overrides = {}
+        for pair in self.pairs:
+            a, b = (index.get(name) for name in pair.types)
+            if a is not None and b is not None:
+                overrides[(a, b)] = pair.semi_axes(self.types[a].tracking_margin + self.types[b].tracking_margin)
+        return ClearanceModel(self.semi_axes, np.array([t.downwash_shift for t in self.type_of]),
+                              np.array([index[d.type] for d in self.drones]), overrides)
 
     @cached_property
     def limits(self) -> np.ndarray:

@@ -14,6 +14,7 @@ would need more, as long as the heavy one can never land on them.
 from __future__ import annotations
 
 import numpy as np
+from scipy.spatial import cKDTree
 
 from ..clearance import ClearanceModel
 from .model import Scene
@@ -72,15 +73,20 @@ def crowded_pairs(points: np.ndarray, clearance: ClearanceModel, shapes: np.ndar
     """Pairs ``(M, 2)`` of formation points ``(P, 3)`` closer than the pair shape of some two
     drones that can stand on them, with the smallest such ratio ``(M,)``.
 
-    ``shapes`` ``(P, K)`` from :func:`possible_shapes`; None: any drone on any point (the fleet's
-    largest pair shape for every pair). The loader's rule, shared with the designer's layout view.
+    ``shapes`` ``(P, K)`` from :func:`possible_shapes`; None: any drone on any point. Ratios are
+    exact for each pair of kinds (pair half-axes and clearance-centre shifts); candidates come from
+    a KD-tree on the points in :attr:`ClearanceModel.pair_envelope` units, widened by the shifts'
+    :attr:`~ClearanceModel.shift_slack`. The loader's rule, shared with the designer's layout view.
     """
-    pairs, bound = clearance.bound_pairs(points, 1.0)
-    if shapes is None or not len(pairs):
-        return pairs, bound
-    d = points[pairs[:, 0]] - points[pairs[:, 1]]  # (M, 3)
-    ratios = np.linalg.norm(d[:, None, None, :] / clearance.kind_pair_radii[None], axis=-1)  # (M, K, K)
-    allowed = shapes[pairs[:, 0]][:, :, None] & shapes[pairs[:, 1]][:, None, :]
-    ratio = np.where(allowed, ratios, np.inf).min(axis=(1, 2))
+    points = np.asarray(points, dtype=np.float64)
+    reach = 1.0 + clearance.shift_slack
+    pairs = cKDTree(points / clearance.pair_envelope).query_pairs(reach, output_type="ndarray").reshape(-1, 2)
+    if not len(pairs):
+        return pairs, np.empty(0)
+    ratios = clearance.kind_ratios(points[pairs[:, 0]], points[pairs[:, 1]])  # (M, K, K)
+    if shapes is not None:
+        allowed = shapes[pairs[:, 0]][:, :, None] & shapes[pairs[:, 1]][:, None, :]
+        ratios = np.where(allowed, ratios, np.inf)
+    ratio = ratios.min(axis=(1, 2))
     keep = ratio < 1.0
     return pairs[keep], ratio[keep]

@@ -1,14 +1,18 @@
 """Safe corridors: per drone and time step, half-spaces its curve piece must stay in.
 
 * **Pair planes** — for every pair of drones that could come close during a step, a max-margin
-  separating plane between their swept segments (later: their pieces' control polygons) in
-  coordinates divided by the pair's clearance radii, shifted by half the clearance to each side. If
-  both drones keep their pieces on their sides, their centres stay ≥ 1 apart in those coordinates:
-  the clearance ellipsoids never overlap during the step.
-* **Tubes** — an oriented box around each roadmap step, in coordinates divided by the fleet's
-  envelope ellipsoid, no farther than the step's certified obstacle margin (so clear of keep-out
-  boxes and meshes) and than :data:`REACH`. The reach also bounds how far a piece strays, so pairs
-  of steps farther apart than twice the reach plus the clearance need no plane.
+  separating plane between their swept segments (later: their pieces' control polygons), measured
+  between clearance centres (:meth:`core.clearance.ClearanceModel.centres`: a drone's position plus
+  its downwash offset) in coordinates divided by the pair's own clearance radii, shifted by half
+  the clearance to each side. If both drones keep their pieces on their sides, their clearance
+  centres stay ≥ 1 apart in those coordinates: the pair's region is never entered during the step,
+  whatever the two drones' shapes (a plane separates the two convex hulls, and each curve piece
+  lies in its control points' hull).
+* **Tubes** — an oriented box around each roadmap step, in coordinates divided by the drone's own
+  clearance ellipsoid, no farther than the step's certified obstacle margin in that drone's own
+  field (so clear of keep-out boxes and meshes) and than :data:`REACH`. The reach also bounds how
+  far a piece strays, so pairs of steps farther apart than twice the reach plus the clearance need
+  no plane.
 """
 
 from __future__ import annotations
@@ -20,9 +24,9 @@ from scipy.spatial import cKDTree
 
 from ..clearance import ClearanceModel
 from ..geometry import segment_segment_closest
-from ..obstacles import ClearanceField
+from ..obstacles import FleetFields
 
-#: Farthest a smoothed piece may stray from its roadmap step, in envelope clearance radii.
+#: Farthest a smoothed piece may stray from its roadmap step, in the drone's own clearance radii.
 REACH = 3.0
 #: Extra separation kept by each drone beyond its half of the clearance (scaled units), so solver
 #: round-off cannot touch the clearance itself; less when the plan has less to spare.
@@ -37,8 +41,9 @@ class PairPlanes:
 
     pairs : (P, 3) int; radii : (P, 3) pair clearance half-axes (m); normals : (P, 3) unit, in
     coordinates divided by ``radii``, pointing from i to j; middle : (P,) plane offset there;
-    slack : (P,) extra margin each side keeps. Drone i keeps ``ν·(x/r) ≤ middle − ½ − slack``, drone
-    j keeps ``ν·(x/r) ≥ middle + ½ + slack``.
+    slack : (P,) extra margin each side keeps; offsets : (N, 3) each drone's clearance centre
+    relative to its position (m). With ``c = x + offset`` the clearance centre, drone i keeps
+    ``ν·(c/r) ≤ middle − ½ − slack``, drone j keeps ``ν·(c/r) ≥ middle + ½ + slack``.
     """
 
     pairs: np.ndarray
@@ -46,6 +51,7 @@ class PairPlanes:
     normals: np.ndarray
     middle: np.ndarray
     slack: np.ndarray
+    offsets: np.ndarray
 
 
 def pair_reach(clearance: ClearanceModel, envelope: np.ndarray) -> float:
@@ -55,15 +61,15 @@ def pair_reach(clearance: ClearanceModel, envelope: np.ndarray) -> float:
     return 1.0 + 2.0 * REACH * float(np.max(envelope / smallest_pair))
 
 
-def initial_planes(starts: np.ndarray, ends: np.ndarray, clearance: ClearanceModel, envelope: np.ndarray
-                   ) -> PairPlanes:
+def initial_planes(starts: np.ndarray, ends: np.ndarray, clearance: ClearanceModel) -> PairPlanes:
     """Max-margin planes between the swept step segments ``starts[:, k]`` → ``ends[:, k]``
     ``(N, K, 3)`` of every pair within :func:`pair_reach` (the perpendicular bisector of their
-    closest points). Raises ``ValueError`` if two segments come closer than the clearance."""
-    reach = pair_reach(clearance, envelope)
+    clearance centres' closest points). Raises ``ValueError`` if two segments come closer than the clearance."""
+    reach = pair_reach(clearance, clearance.envelope)
+    starts, ends = clearance.centres(starts), clearance.centres(ends)
     found = []
     for k in range(starts.shape[1]):
-        a, b = clearance.scaled(starts[:, k]), clearance.scaled(ends[:, k])
+        a, b = starts[:, k] / clearance.pair_envelope, ends[:, k] / clearance.pair_envelope
         longest = float(np.linalg.norm(b - a, axis=1).max())
         pairs = cKDTree(0.5 * (a + b)).query_pairs(reach + longest, output_type="ndarray").reshape(-1, 2)
         found.append(np.c_[pairs, np.full(len(pairs), k)])
@@ -79,16 +85,18 @@ def initial_planes(starts: np.ndarray, ends: np.ndarray, clearance: ClearanceMod
     pairs, radii, gap, on_i, on_j = pairs[keep], radii[keep], gap[keep], on_i[keep], on_j[keep]
     normals = (on_j - on_i) / gap[:, None]
     middle = 0.5 * np.einsum("pd,pd->p", normals, on_i + on_j)
-    return PairPlanes(pairs, radii, normals, middle, _slack(gap))
+    return PairPlanes(pairs, radii, normals, middle, _slack(gap), clearance.offsets)
 
 
 def refined_planes(planes: PairPlanes, pieces: np.ndarray) -> PairPlanes:
     """Planes re-centred on the control polygons ``pieces`` ``(N, K, n + 1, 3)`` of the last
-    solution: the better of the old normal and the Frank–Wolfe closest-point direction. A pair
-    whose polygons are (by solver round-off) less than the clearance apart keeps its old plane."""
+    solution (their clearance centres): the better of the old normal and the Frank–Wolfe
+    closest-point direction. A pair whose polygons are (by solver round-off) less than the
+    clearance apart keeps its old plane."""
     i, j, k = planes.pairs.T
-    p = pieces[i, k] / planes.radii[:, None, :]
-    q = pieces[j, k] / planes.radii[:, None, :]
+    offsets = planes.offsets
+    p = (pieces[i, k] + offsets[i][:, None, :]) / planes.radii[:, None, :]
+    q = (pieces[j, k] + offsets[j][:, None, :]) / planes.radii[:, None, :]
     candidates = [planes.normals, _closest_direction(p, q)]
     gaps, lows, highs = [], [], []
     for nu in candidates:
@@ -104,7 +112,8 @@ def refined_planes(planes: PairPlanes, pieces: np.ndarray) -> PairPlanes:
     middle = 0.5 * (np.stack(lows)[best, rows] + np.stack(highs)[best, rows])
     keep_old = gap < 1.0
     return PairPlanes(planes.pairs, planes.radii, np.where(keep_old[:, None], planes.normals, normals),
-                      np.where(keep_old, planes.middle, middle), np.where(keep_old, planes.slack, _slack(gap)))
+                      np.where(keep_old, planes.middle, middle), np.where(keep_old, planes.slack, _slack(gap)),
+                      offsets)
 
 
 def _slack(gap: np.ndarray) -> np.ndarray:
@@ -143,13 +152,16 @@ class Tubes:
         return np.all((self.corners >= low) & (self.corners <= high), axis=(2, 3))
 
 
-def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field: ClearanceField | None) -> Tubes:
+def step_tubes(starts: np.ndarray, ends: np.ndarray, semi_axes: np.ndarray, fields: FleetFields | None) -> Tubes:
     """Boxes around the steps ``(N, K, 3)``: axis along the step, half-width ``e = m / √3`` on every
-    side (also past the ends), ``m`` = min(certified obstacle margin of the step, :data:`REACH`) in
-    envelope-scaled units. Every box point lies within ``√3 e = m`` of the step, hence is free."""
+    side (also past the ends), ``m`` = min(certified obstacle margin of the step in the drone's own
+    field, :data:`REACH`) in units of the drone's own half-axes ``semi_axes`` ``(N, 3)`` m. Every
+    box point lies within ``√3 e = m`` of the step, hence is free for that drone."""
     n, k = starts.shape[:2]
     a, b = starts.reshape(-1, 3), ends.reshape(-1, 3)
-    margin = np.full(len(a), REACH) if field is None else np.minimum(field.segment_margins(a, b), REACH)
+    envelope = np.repeat(np.asarray(semi_axes, dtype=np.float64), k, axis=0)  # (M, 3): each row's drone
+    margin = np.full(len(a), REACH) if fields is None else \
+        np.minimum(fields.segment_margins(np.repeat(np.arange(n), k), a, b), REACH)
     half = np.maximum(margin, 0.0) / np.sqrt(3.0)
     half = half - np.minimum(PLANE_SLACK, 0.5 * half)
     ya, yb = a / envelope, b / envelope
@@ -157,7 +169,7 @@ def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field
     normals = np.stack([u, -u, v, -v, w, -w], axis=1)  # (M, 6, 3) in scaled coordinates
     anchor = np.stack([yb, ya, ya, ya, ya, ya], axis=1)
     offsets = np.einsum("mfd,mfd->mf", normals, anchor) + half[:, None]
-    world = normals / envelope
+    world = normals / envelope[:, None, :]
     norm = np.linalg.norm(world, axis=2)
     # Corners ya + α u + β v + γ w: α ∈ {−e, length + e}, β, γ ∈ {−e, e}.
     far = np.linalg.norm(yb - ya, axis=1) + half
@@ -165,7 +177,8 @@ def step_tubes(starts: np.ndarray, ends: np.ndarray, envelope: np.ndarray, field
     ends = np.stack([np.stack([-half, far], axis=1), np.stack([-half, half], axis=1),
                      np.stack([-half, half], axis=1)], axis=1)  # (M, 3 axes, 2 ends)
     coefficients = ends[:, np.arange(3), pick]  # (M, 8, 3)
-    corners = (ya[:, None] + np.einsum("mcf,mfd->mcd", coefficients, np.stack([u, v, w], axis=1))) * envelope
+    corners = (ya[:, None] + np.einsum("mcf,mfd->mcd", coefficients, np.stack([u, v, w], axis=1))) \
+        * envelope[:, None, :]
     return Tubes((world / norm[..., None]).reshape(n, k, 6, 3), (offsets / norm).reshape(n, k, 6),
                  corners.reshape(n, k, 8, 3))
 
@@ -182,7 +195,8 @@ def _frames(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def drone_rows(drone: int, tubes: Tubes, planes: PairPlanes) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """One drone's corridor rows: unit world normals ``(R, 3)``, offsets ``(R,)`` m, step ``(R,)``
-    and partner drone ``(R,)`` (-1 for tube rows)."""
+    and partner drone ``(R,)`` (-1 for tube rows). A plane row on the clearance centre ``x + o``
+    becomes ``(ν/r)·x ≤ bound − (ν/r)·o`` on the drone's position ``x``."""
     k_count = tubes.normals.shape[1]
     normals = [tubes.normals[drone].reshape(-1, 3)]
     offsets = [tubes.offsets[drone].ravel()]
@@ -191,7 +205,7 @@ def drone_rows(drone: int, tubes: Tubes, planes: PairPlanes) -> tuple[np.ndarray
     for mine, other, sign, shift in ((0, 1, 1.0, -0.5), (1, 0, -1.0, 0.5)):
         rows = np.nonzero(planes.pairs[:, mine] == drone)[0]
         world = sign * planes.normals[rows] / planes.radii[rows]
-        bound = sign * (planes.middle[rows] + shift) - planes.slack[rows]
+        bound = sign * (planes.middle[rows] + shift) - planes.slack[rows] - world @ planes.offsets[drone]
         norm = np.linalg.norm(world, axis=1)
         normals.append(world / norm[:, None])
         offsets.append(bound / norm)

@@ -19,7 +19,7 @@ import numpy as np
 from ..bezier import derivative_control_points, split_equal_parts
 from ..clearance import ClearanceModel
 from ..objectives import TERM_ORDER
-from ..obstacles import ClearanceField
+from ..obstacles import FleetFields
 from ..progress import CancelToken, ProgressCallback, no_progress
 from ..trajectory import FleetTrajectory
 from ..verify import VerificationSpec, verify
@@ -105,8 +105,8 @@ def check_degree(options: SmoothingOptions) -> str | None:
     return None
 
 
-def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceModel, envelope: np.ndarray,
-                      field: ClearanceField | None, limits: np.ndarray, spec: VerificationSpec,
+def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceModel, fields: FleetFields | None,
+                      limits: np.ndarray, spec: VerificationSpec,
                       options: SmoothingOptions, executor: Executor, *,
                       progress: ProgressCallback = no_progress, cancel: CancelToken | None = None
                       ) -> SmoothingOutcome:
@@ -133,11 +133,11 @@ def smooth_transition(where: str, positions: np.ndarray, clearance: ClearanceMod
     starts, ends = positions[:, :-1], positions[:, 1:]
     qp_durations = safe_step_durations(starts, ends, limits, options.degree)
     t0 = time.perf_counter()
-    tubes = step_tubes(starts, ends, envelope, field)
+    tubes = step_tubes(starts, ends, clearance.semi_axes, fields)
     # Inside by more than the QP's volume slack: a control point that oversteps its tube within
     # the QP's feasibility tolerance still lies inside the volume.
     inside_volume = tubes.inside(spec.flight_volume[0] + VOLUME_SLACK, spec.flight_volume[1] - VOLUME_SLACK)
-    planes = initial_planes(starts, ends, clearance, envelope)
+    planes = initial_planes(starts, ends, clearance)
     seconds["corridors"] += time.perf_counter() - t0
     previous = stop_and_go = stop_at_vertices_points(starts, ends, options.degree)
     windows = moving_windows(positions)

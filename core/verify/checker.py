@@ -124,9 +124,10 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
             chunk = centres[lo:lo + _TIME_CHUNK]
             for t, pos in zip(chunk, traj.evaluate(chunk), strict=True):
                 pairs, _, nearest = model.neighbourhood(pos, 1.0 + delta)
-                np.minimum(per_drone, nearest, out=per_drone)
+                lowest = nearest if model.homogeneous else _smallest_ratios(model, pos, pairs, nearest, 1.0 + delta)
+                np.minimum(per_drone, lowest, out=per_drone)
                 timeline_t.append(t)
-                timeline_min.append(nearest.min())
+                timeline_min.append(lowest.min())
                 rows_i.append(pairs[:, 0])
                 rows_j.append(pairs[:, 1])
                 rows_lo.append(np.full(len(pairs), t - width / 2))
@@ -141,8 +142,10 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
     radii = model.radii(i, j)
     rows = Rows(i, t_lo, t_hi, seg, (speed[i, seg, part] + speed[j, seg, part]) / radii.min(axis=1), b=j)
 
+    shift = model.offsets[i] - model.offsets[j]  # clearance centres: position + downwash offset
+
     def margin(r, t):
-        gap = traj.evaluate_rows(i[r], t) - traj.evaluate_rows(j[r], t)
+        gap = traj.evaluate_rows(i[r], t) - traj.evaluate_rows(j[r], t) + shift[r]
         return np.linalg.norm(gap / radii[r], axis=-1) - 1.0
 
     violations, cert = certify_rows(
@@ -160,6 +163,20 @@ def check_separation(traj: FleetTrajectory, spec: VerificationSpec, *, progress:
         "separation_evaluations": int(cert.evaluations),
     }
     return violations, per_drone, {"t": timeline_t, "min_ratio": timeline_min}, facts
+
+
+def _smallest_ratios(model, positions: np.ndarray, pairs: np.ndarray, nearest: np.ndarray, cap: float) -> np.ndarray:
+    """Per drone ``(N,)`` a lower bound on its smallest separation ratio at ``positions`` ``(N, 3)``
+    that is exact where it is below ``cap``: the KD-tree bound ``nearest`` is exact for one drone
+    kind only, so for mixed fleets each candidate pair (``pairs`` ``(M, 2)``, every pair whose bound
+    is below ``cap``) is measured here between clearance centres, with the pair's own half-axes."""
+    i, j = pairs[:, 0], pairs[:, 1]
+    exact = np.linalg.norm((positions[i] + model.offsets[i] - positions[j] - model.offsets[j]) / model.radii(i, j),
+                           axis=-1)
+    smallest = np.full(len(positions), cap)
+    np.minimum.at(smallest, i, exact)
+    np.minimum.at(smallest, j, exact)
+    return np.maximum(nearest, smallest)
 
 
 _LIMIT_KINDS = (

@@ -2,9 +2,10 @@
 
 Each drone's step is the segment between its positions at two consecutive steps (a point when it
 waits). Two steps conflict when the segments come closer than the pair's clearance ellipsoid
-(coordinates scaled by the pair radii from :class:`core.clearance.ClearanceModel`), whatever the
-timing inside the step. The segment distance here is computed by enumeration — the four endpoint
-distances and the interior stationary point — not by the planner's clamping routine.
+(between clearance centres, coordinates scaled by the pair radii from
+:class:`core.clearance.ClearanceModel`), whatever the timing inside the step. The segment
+distance here is computed by enumeration — the four endpoint distances and the interior
+stationary point — not by the planner's clamping routine.
 """
 
 from __future__ import annotations
@@ -30,6 +31,7 @@ class StepConflict:
 def check_discrete_plan(positions: np.ndarray, model: ClearanceModel) -> list[StepConflict]:
     """Conflicts of a plan ``positions`` ``(N, K + 1, 3)`` (metres) under the fleet's clearance ``model``."""
     bound = model.pair_envelope
+    positions = model.centres(positions)  # pairs are measured between clearance centres
     out = []
     for k in range(positions.shape[1] - 1):
         p0, p1 = positions[:, k], positions[:, k + 1]

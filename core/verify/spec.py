@@ -24,6 +24,8 @@ class VerificationSpec:
     keep_out : names and (2, 3) bounds of boxes no clearance ellipsoid may touch
     meshes : names and placed obstacle meshes (world metres) no clearance ellipsoid may touch
     tolerance : relative slack allowed over a speed/acceleration limit (0.01 = 1 %)
+    pair_rule : the scene's pair shapes (:class:`~core.clearance.ClearanceModel` with its per-pair
+        table and downwash shifts); the checks measure them with their own code
     """
 
     drone_ids: tuple[str, ...]
@@ -33,11 +35,13 @@ class VerificationSpec:
     keep_out: tuple[tuple[str, np.ndarray], ...] = ()
     meshes: tuple[tuple[str, trimesh.Trimesh], ...] = ()
     tolerance: float = 0.01
+    #: The scene's pair rule (per-pair table, downwash shifts); None: the enclosing sums of :attr:`semi_axes`.
+    pair_rule: ClearanceModel | None = None
 
     @cached_property
     def clearance(self) -> ClearanceModel:
-        """The pair shapes of :attr:`semi_axes` (one model per spec, built on first use)."""
-        return ClearanceModel(self.semi_axes)
+        """The pair shapes the plan must keep (one model per spec, built on first use)."""
+        return self.pair_rule if self.pair_rule is not None else ClearanceModel(self.semi_axes)
 
 
 def spec_from_scene(scene: Scene, base_dir: Path | None = None, meshes: tuple[SiteMesh, ...] | None = None
@@ -54,4 +58,5 @@ def spec_from_scene(scene: Scene, base_dir: Path | None = None, meshes: tuple[Si
         flight_volume=scene.site.flight_volume.bounds,
         keep_out=tuple((b.name, b.bounds) for b in scene.site.keep_out),
         meshes=tuple((m.name, m.mesh) for m in meshes),
+        pair_rule=scene.fleet.clearance,
     )
