@@ -43,14 +43,15 @@ def stress(smoke: bool) -> list[str]:
     """Plan every stress scene; return the defects found (stop-and-go transitions, failed plans)."""
     sizes = {"wall_crossing": (16,) if smoke else (64,), "tower_stations": (4,) if smoke else (10,),
              "line_swap": (3,) if smoke else (5,), "floor_pads": (1, 3) if smoke else (2, 6),
-             "mixed_crown": (2, 6) if smoke else (4, 12)}
+             "mixed_crown": (2, 6) if smoke else (4, 12), "mixed_slot": (1, 3) if smoke else (2, 6)}
     defects = []
     with tempfile.TemporaryDirectory() as folder:
         for builder, args in sizes.items():
             path = stress_scenes.write_scene(getattr(stress_scenes, builder)(*args), Path(folder) / builder, builder)
             defects += _report(load_scene(path), path.parent)
         if not smoke:
-            defects += _report(load_scene(SAMPLES / "courtyard_swap.json"), SAMPLES)
+            for sample in ("courtyard_swap.json", "viaduct_survey.json"):
+                defects += _report(load_scene(SAMPLES / sample), SAMPLES)
     return defects
 
 

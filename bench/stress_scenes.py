@@ -10,6 +10,8 @@ be written as, next to the scene. :func:`write_scene` writes both into a folder.
   over a low canopy to a crown, and lands again (grouped by type).
 * :func:`mixed_crown` — heavy camera drones and light scouts on tightly packed floor pads (the
   scouts' pads closer than two heavy drones may be) fly to a two-ring crown and back, grouped by type.
+* :func:`mixed_slot` — camera drones and scouts cross a wall where only the scouts fit through a
+  slot near them; the camera drones take a door to the side (downwash shift on the heavy type).
 * :func:`window_facade` — an inspection crew passes a facade through its one window (a mesh),
   with a quarter of a metre to spare above and below each drone.
 * :func:`crowd_wall` — a show crowd (unlabeled) crosses a wall through two 3 m gaps.
@@ -127,6 +129,31 @@ def mixed_crown(heavy: int = 4, light: int = 12) -> tuple[dict, dict]:
                   {"pads": pads, "crown": crown, "landed": pads},
                   [{"to": "crown", "assignment": "grouped"}, {"to": "landed", "assignment": "grouped"}],
                   groups={"pads": kinds, "crown": kinds, "landed": kinds}), {}
+
+
+def mixed_slot(heavy: int = 2, light: int = 6) -> tuple[dict, dict]:
+    """``heavy`` camera drones (0.6 / 1.0 m + 0.1, downwash shift 0.3 m) and ``light`` scouts
+    (0.15 / 0.35 m + 0.05) cross a 0.3 m thick wall of keep-out boxes (labeled, 12 m): the scouts
+    in front of its 2 m × 1.6 m slot, which only they fit through, the camera drones 12 m to the
+    side in front of a 4 m × 6 m door. The wall rises above the flight volume: nobody climbs over."""
+    heavy_type = {"name": "camera", "radius_xy": 0.6, "radius_z": 1.0, "tracking_margin": 0.1,
+                  "max_speed_xy": 2.5, "max_speed_z": 1.5, "max_acceleration": 2.0, "downwash_shift": 0.3}
+    light_type = {"name": "scout", "radius_xy": 0.15, "radius_z": 0.35, "tracking_margin": 0.05,
+                  "max_speed_xy": 4.0, "max_speed_z": 2.5, "max_acceleration": 3.0}
+    cameras = np.c_[10.0 + 2.5 * (np.arange(heavy) % 2), np.full(heavy, -6.0), 3.0 + 3.0 * (np.arange(heavy) // 2)]
+    scouts = np.c_[(np.arange(light) % 3 - 1) * 2.0, np.full(light, -6.0) - (np.arange(light) // 3) * 1.0,
+                   2.0 + 1.5 * (np.arange(light) % 3)]
+    near = np.vstack([cameras, scouts])
+    far = near * [1, -1, 1]
+    wall = [((-30.0, -0.15, 0.0), (-1.0, 0.15, 12.0)), ((-1.0, -0.15, 0.0), (1.0, 0.15, 3.0)),
+            ((-1.0, -0.15, 4.6), (1.0, 0.15, 12.0)), ((1.0, -0.15, 0.0), (12.0, 0.15, 12.0)),
+            ((12.0, -0.15, 6.0), (16.0, 0.15, 12.0)), ((16.0, -0.15, 0.0), (30.0, 0.15, 12.0))]
+    site = {"flight_volume": {"lower": [-20.0, -10.0, 0.5], "upper": [20.0, 10.0, 11.0]},
+            "keep_out": [{"name": f"wall {k}", "lower": list(lo), "upper": list(hi)}
+                         for k, (lo, hi) in enumerate(wall)]}
+    return _scene(f"mixed slot ({heavy} heavy + {light} light)", site, [heavy_type, light_type],
+                  ["camera"] * heavy + ["scout"] * light, {"near": near, "far": far},
+                  [{"to": "far", "assignment": "labeled"}]), {}
 
 
 def window_facade(n: int = 6, window: tuple[float, float] = (3.0, 1.3)) -> tuple[dict, dict]:

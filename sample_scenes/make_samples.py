@@ -157,6 +157,60 @@ def courtyard_swap(n: int = 32) -> dict:
     }
 
 
+#: The viaduct's service opening (x from −1.5 to 1.5 m, z from 2.0 to 3.6 m) and main arch (x from
+#: 12 to 18 m, z up to 8 m), both through the whole wall.
+OPENING = ((-1.5, 2.0), (1.5, 3.6))
+ARCH = ((12.0, 0.0), (18.0, 8.0))
+
+
+def write_viaduct_mesh(path: Path) -> None:
+    """An invented masonry viaduct across the whole site (x from −21 to 21 m, 15 m
+    tall: above the flight volume, 1 m thick) with a service opening (:data:`OPENING`) and a main arch
+    (:data:`ARCH`), as boxes 1 mm apart (binary STL, metres)."""
+    (ox0, oz0), (ox1, oz1) = OPENING
+    (ax0, _), (ax1, az1) = ARCH
+    gap, top = 1e-3, 15.0
+    parts = [((-21.0, 0.0), (ox0 - gap, top)), ((ox0, 0.0), (ox1, oz0)), ((ox0, oz1), (ox1, top)),
+             ((ox1 + gap, 0.0), (ax0 - gap, top)), ((ax0, az1), (ax1, top)), ((ax1 + gap, 0.0), (21.0, top))]
+    trimesh.util.concatenate([trimesh.creation.box(bounds=[(lo[0], -0.5, lo[1]), (hi[0], 0.5, hi[1])])
+                              for lo, hi in parts]).export(path)
+
+
+def viaduct_survey() -> dict:
+    """A heavy camera drone and five light scouts survey the north face of an invented viaduct:
+    the scouts fit through its 3 m × 1.6 m service opening, the camera drone (2.2 m of vertical
+    clearance) does not and takes the main arch 12 m away. The camera drone's downwash reaches
+    0.4 m further below it, and the camera–scout pair keeps its own separation (fleet.pairs)."""
+    camera = {"name": "camera-heavy", "radius_xy": 0.6, "radius_z": 1.0, "tracking_margin": 0.1,
+              "max_speed_xy": 2.5, "max_speed_z": 1.5, "max_acceleration": 2.0, "downwash_shift": 0.4}
+    scout = {"name": "scout-light", "radius_xy": 0.15, "radius_z": 0.35, "tracking_margin": 0.05,
+             "max_speed_xy": 4.0, "max_speed_z": 2.0, "max_acceleration": 3.0}
+    pads = np.array([(10.0, -8.0, 0.5)] + [(x, -8.0, 0.5) for x in (-2.4, -1.2, 0.0, 1.2, 2.4)])
+    stations = np.array([(8.0, 5.0, 7.0), (-6.0, 2.6, 2.5), (-3.0, 2.6, 4.5), (0.0, 2.6, 6.0), (3.0, 2.6, 4.5),
+                         (6.0, 2.6, 2.5)])
+    kinds = ["camera"] + ["scouts"] * 5
+    return {
+        "name": "Millrace viaduct survey",
+        "description": "Invented demo: one heavy camera drone and five light scouts fly from their pads south of "
+                       "a viaduct to stations on its north face and back. The scouts pass the wall's small "
+                       "service opening; the camera drone, too tall for it, takes the main arch.",
+        "site": {"flight_volume": {"lower": [-20.0, -12.0, 0.5], "upper": [20.0, 12.0, 14.0]},
+                 "meshes": [{"name": "viaduct", "file": "meshes/viaduct.stl", "units": "m"}]},
+        "fleet": {"types": [camera, scout],
+                  "drones": [{"id": "CAM", "type": "camera-heavy"}]
+                  + [{"id": f"S{k + 1}", "type": "scout-light"} for k in range(5)],
+                  "pairs": [{"types": ["camera-heavy", "scout-light"], "radius_xy": 1.0, "radius_z": 1.6}]},
+        "formations": [
+            {"name": "pads", "points": pads.tolist(), "groups": kinds},
+            {"name": "north face", "points": stations.tolist(), "groups": kinds},
+        ],
+        "timeline": {"start": "pads", "start_hold": 1.0, "transitions": [
+            {"to": "north face", "assignment": "labeled", "duration": "fastest", "hold": 5.0},
+            {"to": "pads", "assignment": "grouped", "duration": "fastest", "hold": 0.0},
+        ]},
+    }
+
+
 def write_cube_csv(path: Path) -> None:
     """Cube corners listed so that pad ``i`` → corner ``i`` is the shortest (non-crossing) pairing."""
     corners = np.array([(x, y, z) for z in (0.9, 2.1) for y in (-0.8, 0.8) for x in (-0.8, 0.8)])
@@ -173,8 +227,10 @@ def main() -> None:
     (HERE / "meshes").mkdir(exist_ok=True)
     write_bridge_mesh(HERE / "meshes" / "footbridge.stl")
     write_courtyard_mesh(HERE / "meshes" / "courtyard_blocks.stl")
+    write_viaduct_mesh(HERE / "meshes" / "viaduct.stl")
     for name, build in (("meadow_show.json", meadow_show), ("lab_eight.json", lab_eight),
-                        ("bridge_inspection.json", bridge_inspection), ("courtyard_swap.json", courtyard_swap)):
+                        ("bridge_inspection.json", bridge_inspection), ("courtyard_swap.json", courtyard_swap),
+                        ("viaduct_survey.json", viaduct_survey)):
         save_scene(scene_from_dict(build(), source=name, base_dir=HERE), HERE / name)
         print(f"wrote {HERE / name}")
 
