@@ -28,6 +28,7 @@ from core.export.target import fresh_folder
 from core.plan_summary import plan_summary_lines
 
 from .document import Document
+from .drone_list import DroneList
 from .export_dialog import ExportDialog
 from .findings_table import FindingsTable
 from .fleet_panel import FleetPanel
@@ -74,8 +75,9 @@ class MainWindow(QMainWindow):
         self.summary = QPlainTextEdit(readOnly=True)  # selectable and copyable
         self.summary.setLineWrapMode(QPlainTextEdit.LineWrapMode.WidgetWidth)
         left = QTabWidget()
+        self.drones = DroneList(document)
         for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.fleet, "Fleet"),
-                             (self.planner, "Planner")):
+                             (self.drones, "Drones"), (self.planner, "Planner")):
             left.addTab(widget, name)
         self._dock(left, "Scene", Qt.DockWidgetArea.LeftDockWidgetArea)
         bottom = QTabWidget()

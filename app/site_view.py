@@ -1,12 +1,13 @@
 """The 3D site: obstacle meshes, flight volume with a ground grid on its floor (its spacing
 written in the view's corner), keep-out boxes, formation points, planned curves (one line item for the whole
-fleet), drones at the current time, and the selected drones' clearance ellipsoids."""
+fleet), drones at the current time, and the selected drones' clearance ellipsoids. A click on a
+drone's marker selects it (picked in numpy: markers projected with the view's matrices)."""
 
 from __future__ import annotations
 
 import numpy as np
 import pyqtgraph.opengl as gl
-from PySide6.QtCore import QTimer
+from PySide6.QtCore import Qt, QTimer
 from PySide6.QtGui import QVector3D
 from PySide6.QtWidgets import QLabel
 
@@ -20,6 +21,10 @@ from .document import Document
 CURVE_SAMPLES = 16
 #: Most ground-grid cells along the flight volume's longer side.
 GRID_CELLS = 20
+#: A click picks the drone whose marker is nearest, if within this many pixels; a press and
+#: release farther apart than :data:`CLICK_SLOP` pixels is a camera drag, not a pick.
+PICK_PIXELS = 12.0
+CLICK_SLOP = 4.0
 
 
 def grid_spacing(length: float) -> float:
@@ -68,6 +73,7 @@ class SiteView(gl.GLViewWidget):
         self.shown_formation: str | None = None
         self.selected_curves_only = False
         self._colours = np.zeros((0, 4))
+        self._press = None
         document.scene_changed.connect(self.refresh_scene)
         document.plan_changed.connect(self.refresh_plan)
         document.time_changed.connect(self.refresh_time)
@@ -180,6 +186,55 @@ class SiteView(gl.GLViewWidget):
             self.refresh_plan()
         else:
             self.refresh_time()
+
+    # --- picking -----------------------------------------------------------------------------
+    def screen_positions(self, points: np.ndarray) -> np.ndarray:
+        """Widget pixel positions ``(M, 2)`` (x right, y down) of world points ``(M, 3)`` metres
+        through the view's projection and camera matrices; NaN for points behind the camera."""
+        w, h = max(self.width(), 1), max(self.height(), 1)
+        matrix = self.projectionMatrix((0, 0, w, h), (0, 0, w, h)) * self.viewMatrix()
+        m = np.array(matrix.data(), dtype=np.float64).reshape(4, 4).T  # Qt stores column-major
+        clip = np.c_[np.atleast_2d(points), np.ones(len(np.atleast_2d(points)))] @ m.T
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ndc = clip[:, :2] / clip[:, 3:4]
+        out = np.c_[(ndc[:, 0] + 1.0) * 0.5 * w, (1.0 - ndc[:, 1]) * 0.5 * h]
+        out[clip[:, 3] <= 0] = np.nan
+        return out
+
+    def drone_at(self, x: float, y: float) -> int | None:
+        """The drone whose marker (at the current time) is nearest pixel ``(x, y)``, within
+        :data:`PICK_PIXELS`; None without a plan or when no marker is that close."""
+        plan = self.document.plan
+        if plan is None:
+            return None
+        pixels = self.screen_positions(plan.trajectory.evaluate(np.array([self.document.time]))[0])
+        distance = np.linalg.norm(pixels - [x, y], axis=1)
+        distance[np.isnan(distance)] = np.inf
+        best = int(np.argmin(distance))
+        return best if distance[best] <= PICK_PIXELS else None
+
+    def mousePressEvent(self, event):  # noqa: N802 - Qt's name
+        self._press = event.position()
+        super().mousePressEvent(event)
+
+    def mouseReleaseEvent(self, event):  # noqa: N802 - Qt's name
+        """A click (no drag) on a drone selects it; with Ctrl it toggles it in the selection; on
+        empty space it clears the selection."""
+        super().mouseReleaseEvent(event)
+        press = self._press
+        if press is None or event.button() != Qt.MouseButton.LeftButton:
+            return
+        moved = event.position() - press
+        if abs(moved.x()) + abs(moved.y()) > CLICK_SLOP:
+            return
+        drone = self.drone_at(event.position().x(), event.position().y())
+        chosen = set(self.document.selected)
+        if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
+            if drone is not None:
+                chosen ^= {drone}
+        else:
+            chosen = set() if drone is None else {drone}
+        self.document.select(tuple(sorted(chosen)))
 
     # --- camera ------------------------------------------------------------------------------
     def frame_points(self, points: np.ndarray, margin: float = 1.5) -> None:

@@ -600,3 +600,60 @@ def test_the_site_is_framed_whole_at_common_window_sizes(qtbot, make_window, siz
         p = matrix.map(QVector4D(*corner, 1.0))
         assert abs(p.x() / p.w()) <= 1.0 and abs(p.y() / p.w()) <= 1.0
     assert view.scale_label.text() == f"ground grid {view.ground_spacing:g} m · z up" and len(view._ground) == 1
+
+
+def test_drone_list_filters_and_drives_the_selection_both_ways(qtbot, document):
+    """The lab sample's drones (their start group from pads): the filter keeps the rows whose id,
+    type or group contains the text; selecting rows selects those drones in the document, and a
+    selection made elsewhere shows in the list without echoing back."""
+    from app.drone_list import DroneList
+    panel = DroneList(document)
+    qtbot.addWidget(panel)
+    fleet = document.scene.fleet
+    assert panel.table.rowCount() == len(fleet.drones)
+    assert [panel.table.item(r, 0).text() for r in range(panel.table.rowCount())] == list(fleet.ids)
+    groups = document.formation(document.scene.timeline.start).groups
+    wanted = groups[0]
+    panel.filter.setText(wanted.upper())  # case ignored
+    shown = [r for r in range(panel.table.rowCount()) if not panel.table.isRowHidden(r)]
+    assert shown == [k for k, g in enumerate(groups) if wanted in g.casefold() or wanted in fleet.ids[k].casefold()]
+    assert panel.count.text().startswith(f"{len(shown)} of {len(fleet.drones)} drones shown")
+    panel.filter.clear()
+    panel.table.selectRow(2)
+    assert document.selected == (2,)
+    changes = []
+    document.selection_changed.connect(lambda: changes.append(document.selected))
+    document.select((1, 4))
+    selected_rows = sorted(i.row() for i in panel.table.selectionModel().selectedRows())
+    assert selected_rows == [1, 4] and changes == [(1, 4)]  # shown here, not sent back
+    assert "2 selected" in panel.count.text()
+
+
+@needs_opengl
+def test_clicking_a_drone_in_3d_selects_it_and_ctrl_click_adds_another(qtbot, make_window):
+    """Markers are picked in numpy (projected with pyqtgraph's own matrices, as the framing test
+    does); the drone list follows, and a click on empty space clears the selection."""
+    from app.site_view import PICK_PIXELS
+    window = make_window("bridge_inspection.json")  # its launch line: drones 3 m apart
+    _plan(qtbot, window)
+    doc, view = window.document, window.site
+    doc.set_time(0.5)
+    window.centre.setCurrentWidget(view)
+    qtbot.wait(100)
+    positions = doc.plan.trajectory.evaluate(np.array([doc.time]))[0]
+    pixels = view.screen_positions(positions)
+    inside = np.nonzero(np.all((pixels > 5) & (pixels < [view.width() - 5, view.height() - 5]), axis=1))[0]
+    gaps = np.linalg.norm(pixels[inside, None] - pixels[None, inside], axis=-1) + np.eye(len(inside)) * 1e9
+    apart = [int(inside[k]) for k in range(len(inside)) if gaps[k].min() > 4]  # a click on a marker picks it
+    assert len(apart) >= 2
+    first, second = apart[:2]
+    qtbot.mouseClick(view, Qt.MouseButton.LeftButton, pos=QPointF(*pixels[first]).toPoint())
+    assert doc.selected == (first,)
+    assert window.drones.table.selectionModel().isRowSelected(first)
+    qtbot.mouseClick(view, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.ControlModifier,
+                     QPointF(*pixels[second]).toPoint())
+    assert doc.selected == tuple(sorted((first, second)))
+    free = np.array([3.0, 3.0])
+    assert np.linalg.norm(pixels - free, axis=1).min() > PICK_PIXELS and view.drone_at(*free) is None
+    qtbot.mouseClick(view, Qt.MouseButton.LeftButton, pos=QPointF(*free).toPoint())
+    assert doc.selected == ()
