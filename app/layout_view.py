@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
 
 from core.clearance import ClearanceModel
 from core.scene.occupants import crowded_pairs, possible_shapes
+from core.scene.sections import site_section
 
 from . import palette
 from .document import Document
@@ -100,14 +101,22 @@ class ProjectionPlot(pg.PlotWidget):
         self.setLabel("bottom", "x", units="m")
         self.setLabel("left", "y" if axes[1] == 1 else "z", units="m")
         self.outline = pg.PlotDataItem(pen=pg.mkPen(*(int(255 * c) for c in palette.VOLUME[:3]), width=1))
+        #: Where obstacles and keep-out boxes meet the plane points are added in (altitude / side-view y).
+        self.obstacles = pg.PlotDataItem(connect="pairs",
+                                         pen=pg.mkPen(*(int(255 * c) for c in palette.OBSTACLE_EDGE[:3]), width=2))
         self.scatter = _PassiveScatter(size=10, pxMode=True)
-        self.addItem(self.outline)
-        self.addItem(self.scatter)
+        for item in (self.outline, self.obstacles, self.scatter):
+            self.addItem(item)
 
     def show_volume(self, bounds: np.ndarray) -> None:
         """Outline of the flight volume ``(2, 3)`` in this projection."""
         (x0, y0), (x1, y1) = bounds[:, list(self.axes)]
         self.outline.setData([x0, x1, x1, x0, x0], [y0, y0, y1, y1, y0])
+
+    def show_section(self, segments: np.ndarray) -> None:
+        """Obstacle cut lines ``(M, 2, 2)`` metres in this view's coordinates."""
+        flat = segments.reshape(-1, 2)
+        self.obstacles.setData(flat[:, 0], flat[:, 1])
 
     def frame_volume(self, bounds: np.ndarray) -> None:
         (x0, y0), (x1, y1) = bounds[:, list(self.axes)]
@@ -170,8 +179,21 @@ class LayoutView(QWidget):
             plot.box.dragged.connect(lambda x, y, done, plot=plot: self._drag(plot, x, y, done))
         document.scene_changed.connect(self.refresh)
         document.formation_chosen.connect(self._formation_chosen)
+        self.altitude.valueChanged.connect(self.refresh_sections)
+        self.section_y.valueChanged.connect(self.refresh_sections)
+        self.altitude.setToolTip("height of points added in the top view; obstacles are drawn where they "
+                                 "meet this height")
+        self.section_y.setToolTip("y of points added in the side view; obstacles are drawn where they meet "
+                                  "this plane")
         self.refresh()
         self.frame()
+
+    def refresh_sections(self) -> None:
+        """Draw where meshes and keep-out boxes meet the top view's altitude and the side view's plane."""
+        scene = self.document.scene
+        meshes, boxes = self.document.meshes(), [b.bounds for b in scene.site.keep_out]
+        self.top.show_section(site_section(meshes, boxes, 2, self.altitude.value(), self.top.axes))
+        self.side.show_section(site_section(meshes, boxes, 1, self.section_y.value(), self.side.axes))
 
     def frame(self) -> None:
         """Fit both views to the flight volume."""
@@ -211,6 +233,7 @@ class LayoutView(QWidget):
         for plot in (self.top, self.side):
             plot.show_points(points, self.selected, close)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)
+        self.refresh_sections()
         n_fleet = len(self.document.scene.fleet.drones)
         text = f"{f.name}: {len(points)} points for {n_fleet} drones"
         if close.any():

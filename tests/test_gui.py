@@ -657,3 +657,24 @@ def test_clicking_a_drone_in_3d_selects_it_and_ctrl_click_adds_another(qtbot, ma
     assert np.linalg.norm(pixels - free, axis=1).min() > PICK_PIXELS and view.drone_at(*free) is None
     qtbot.mouseClick(view, Qt.MouseButton.LeftButton, pos=QPointF(*free).toPoint())
     assert doc.selected == ()
+
+
+def test_layout_draws_obstacles_where_they_meet_the_working_altitude(qtbot, settings):
+    """The bridge sample from above: at mid-height of the footbridge mesh the top view shows its
+    cut lines (the same segments as core.scene.sections gives), above every obstacle none."""
+    from app.document import Document
+    from app.layout_view import LayoutView
+    from core.scene.sections import site_section
+    path = SAMPLES / "bridge_inspection.json"
+    document = Document(load_scene(path), path, settings)
+    view = LayoutView(document)
+    qtbot.addWidget(view)
+    mesh = document.meshes()[0].mesh
+    middle = float(mesh.bounds[:, 2].mean())
+    view.altitude.setValue(middle)
+    x, y = view.top.obstacles.getData()
+    expected = site_section(document.meshes(), [], 2, middle, (0, 1)).reshape(-1, 2)
+    assert len(x) == len(expected) > 0 and np.allclose(np.c_[x, y], expected)
+    view.altitude.setValue(float(mesh.bounds[1, 2]) + 1.0)
+    x, _ = view.top.obstacles.getData()
+    assert x is None or len(x) == 0
