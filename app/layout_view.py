@@ -148,6 +148,7 @@ class LayoutView(QWidget):
         self.selected: set[int] = set()
         self._drag_index: int | None = None
         self._drag_serial = 0
+        self._section_key: tuple | None = None  # (site, altitude, side-view y) of the cuts drawn
         self.altitude = QDoubleSpinBox(minimum=-1000, maximum=10000, value=2.0, suffix=" m", singleStep=0.5,
                                        toolTip="height of points added in the top view")
         self.section_y = QDoubleSpinBox(minimum=-10000, maximum=10000, value=0.0, suffix=" m", singleStep=0.5,
@@ -189,8 +190,13 @@ class LayoutView(QWidget):
         self.frame()
 
     def refresh_sections(self) -> None:
-        """Draw where meshes and keep-out boxes meet the top view's altitude and the side view's plane."""
+        """Draw where meshes and keep-out boxes meet the top view's altitude and the side view's
+        plane; cut again only when the site or a plane changed (not on every point edit)."""
         scene = self.document.scene
+        key = (scene.site, self.altitude.value(), self.section_y.value())
+        if key == self._section_key:
+            return
+        self._section_key = key
         meshes, boxes = self.document.meshes(), [b.bounds for b in scene.site.keep_out]
         self.top.show_section(site_section(meshes, boxes, 2, self.altitude.value(), self.top.axes))
         self.side.show_section(site_section(meshes, boxes, 1, self.section_y.value(), self.side.axes))

@@ -51,11 +51,6 @@ class FleetFields:
     def of_drone(self, drone: int) -> ClearanceField:
         return self.of_shape(int(self.shape_of[drone]))
 
-    @property
-    def built(self) -> list[ClearanceField]:
-        """The fields built so far."""
-        return list(self._fields.values())
-
     def _per_shape(self, drones: np.ndarray, ask: Callable[[ClearanceField, np.ndarray], np.ndarray],
                    fill: float | bool) -> np.ndarray:
         drones = np.asarray(drones)

@@ -128,7 +128,8 @@ class PlanningContext:
         samples = max(s.roadmap_samples, SAMPLES_PER_DRONE * len(self.scene.fleet.ids))
         rs = RoadmapSettings(samples, s.roadmap_neighbours, s.spanner_stretch, s.roadmap_seed)
         points = np.concatenate([f.positions for f in formations])
-        occupants = np.concatenate([possible_shapes(self.scene)[f.name] for f in formations])  # (P, K)
+        shapes = possible_shapes(self.scene)
+        occupants = np.concatenate([shapes[f.name] for f in formations])  # (P, K)
         kinds = len(clearance.kind_axes)
         shape_of_kind = [int(self.fields.shape_of[np.nonzero(clearance.kind_of == k)[0][0]]) for k in range(kinds)]
         layers, indices, cached_all, built = [], [], True, {}

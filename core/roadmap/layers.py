@@ -36,11 +36,8 @@ def layered_roadmap(layers: list[Roadmap], kind_pair_radii: np.ndarray, kind_off
         parts.append(ConflictPairs(own.vv + vertex_starts[k], own.ve + [vertex_starts[k], edge_starts[k]],
                                    own.ee + edge_starts[k]))
         for m in range(k + 1, len(layers)):
-            across = _across(layer, layers[m], kind_pair_radii[k, m], kind_offsets[k], kind_offsets[m])
-            vk, vm, ek, em = vertex_starts[k], vertex_starts[m], edge_starts[k], edge_starts[m]
-            parts.append(ConflictPairs(across.vv + [vk, vm],
-                                       np.concatenate([across.ve[0] + [vk, em], across.ve[1] + [vm, ek]]),
-                                       across.ee + [ek, em]))
+            parts.append(_across(layer, layers[m], kind_pair_radii[k, m], kind_offsets[[k, m]],
+                                 (vertex_starts[k], vertex_starts[m], edge_starts[k], edge_starts[m])))
     conflicts = parts[0]
     for p in parts[1:]:
         conflicts = conflicts.merged(p)
@@ -49,21 +46,17 @@ def layered_roadmap(layers: list[Roadmap], kind_pair_radii: np.ndarray, kind_off
     return Roadmap(vertices, edges.reshape(-1, 2), conflicts), vertex_starts
 
 
-class _Across:
-    """Conflicts between two layers in their own indices: ``vv`` (vertex of the first, vertex of
-    the second), ``ve`` = (first's vertices × second's edges, second's vertices × first's edges),
-    ``ee`` (edge of the first, edge of the second)."""
-
-    def __init__(self, vv: np.ndarray, ve: tuple[np.ndarray, np.ndarray], ee: np.ndarray):
-        self.vv, self.ve, self.ee = vv, ve, ee
-
-
-def _across(first: Roadmap, second: Roadmap, pair_radii: np.ndarray, first_offset: np.ndarray,
-            second_offset: np.ndarray) -> _Across:
+def _across(first: Roadmap, second: Roadmap, pair_radii: np.ndarray, offsets: np.ndarray,
+            starts: tuple[int, int, int, int]) -> ConflictPairs:
     """Every conflict between an action of ``first`` and one of ``second`` (the same place
-    included), measured between clearance centres in units of ``pair_radii`` ``(3,)``."""
-    p = (first.vertices + first_offset) / pair_radii
-    q = (second.vertices + second_offset) / pair_radii
+    included), measured between clearance centres (vertices + ``offsets`` ``(2, 3)`` m, one row per
+    layer) in units of ``pair_radii`` ``(3,)``; indices made global by ``starts`` = (first vertex
+    of each layer, first edge of each layer)."""
+    vk, vm, ek, em = starts
+    p = (first.vertices + offsets[0]) / pair_radii
+    q = (second.vertices + offsets[1]) / pair_radii
     p0, p1 = p[first.edges[:, 0]], p[first.edges[:, 1]]
     q0, q1 = q[second.edges[:, 0]], q[second.edges[:, 1]]
-    return _Across(vertex_vertex(p, q), (vertex_edge(p, q0, q1), vertex_edge(q, p0, p1)), edge_edge(p0, p1, q0, q1))
+    return ConflictPairs(vertex_vertex(p, q) + [vk, vm],
+                         np.concatenate([vertex_edge(p, q0, q1) + [vk, em], vertex_edge(q, p0, p1) + [vm, ek]]),
+                         edge_edge(p0, p1, q0, q1) + [ek, em])
