@@ -69,7 +69,8 @@ class Document(QObject):
         self.selected: tuple[int, ...] = ()
         self.workers: int | None = None
         self.active_formation = scene.formations[0].name
-        self._settings = settings or QSettings("Skyloom", "Designer")
+        #: The designer's remembered choices (recent files, the look).
+        self.settings = settings or QSettings("Skyloom", "Designer")
         self._meshes: tuple[SiteMesh, ...] | None = None
         self._mesh_site = None
         self._stale = False
@@ -123,12 +124,12 @@ class Document(QObject):
         self.path_changed.emit()
 
     def recent_files(self) -> list[str]:
-        value = self._settings.value(RECENT_KEY, [])
+        value = self.settings.value(RECENT_KEY, [])
         return [value] if isinstance(value, str) else list(value or [])
 
     def _remember(self, path: Path) -> None:
         items = [str(Path(path).resolve())] + [p for p in self.recent_files() if p != str(Path(path).resolve())]
-        self._settings.setValue(RECENT_KEY, items[:RECENT_COUNT])
+        self.settings.setValue(RECENT_KEY, items[:RECENT_COUNT])
 
     # --- edits -------------------------------------------------------------------------------
     def edit(self, after: Scene, text: str, merge_key: int = -1) -> None:

@@ -1,8 +1,16 @@
 """Lay out a formation by clicking: a top-down view at a chosen altitude and a side view for height.
 
-Click on empty ground adds a point (snapped to the grid), drag moves a point, click selects (Ctrl
-adds to the selection), Delete removes the selected points. Points closer to another point than
-the clearance of the drones that can stand on them are drawn red. Every edit is one undo step.
+Click on empty ground adds a point (snapped to the grid), Shift-click always adds one (also on
+top of points stacked in height), drag moves a point, click selects (Ctrl adds to the
+selection), Delete removes the selected points. Every edit is one undo step.
+
+What is drawn: the flight volume, where obstacle meshes and keep-out boxes meet the working plane,
+the points in their group's colour (red: closer to another point than the clearance of the drones
+that can stand on them), markers as wide as the clearance at the current zoom (kept between
+:data:`MARKER_PIXELS`), and the id of the point under the mouse (its group, and which drone stands
+there when that is known). Selected points and selected drones are the same thing where the
+formation says which drone stands where: the start formation, and any formation the current plan
+flies to.
 """
 
 from __future__ import annotations
@@ -25,13 +33,15 @@ from core.clearance import ClearanceModel
 from core.scene.occupants import crowded_pairs, possible_shapes
 from core.scene.sections import site_section
 
-from . import palette
+from . import theme
 from .document import Document
 
 #: Undo merge keys from here on: the steps of one drag share a key, so a drag is one undo step.
 DRAG_MERGE_BASE = 1000
 #: A click within this many pixels of a point picks the point.
 PICK_PIXELS = 8.0
+#: Markers are the clearance's width at the current zoom, but never smaller or larger than this (px).
+MARKER_PIXELS = (5.0, 40.0)
 
 
 def too_close(points: np.ndarray, clearance: ClearanceModel, shapes: np.ndarray | None) -> np.ndarray:
@@ -43,6 +53,13 @@ def too_close(points: np.ndarray, clearance: ClearanceModel, shapes: np.ndarray 
     mask = np.zeros(len(points), dtype=bool)
     mask[pairs.ravel()] = True
     return mask
+
+
+def point_widths(clearance: ClearanceModel, shapes: np.ndarray) -> np.ndarray:
+    """``(n,)`` m: the horizontal clearance diameter of the widest drone that can stand on each
+    point (``shapes`` ``(n, K)`` from :func:`core.scene.occupants.possible_shapes`)."""
+    widths = 2.0 * clearance.kind_axes[:, 0]
+    return np.where(shapes, widths[None, :], 0.0).max(axis=1, initial=0.0)
 
 
 class _EditBox(pg.ViewBox):
@@ -95,18 +112,33 @@ class ProjectionPlot(pg.PlotWidget):
         super().__init__(viewBox=self.box, title=title)
         self.axes = axes
         self.points = np.zeros((0, 3))
+        self.widths = np.zeros(0)
+        #: Depth of the plane points are added in (altitude or side-view y); the top view prefers
+        #: the point nearest it when points are stacked.
+        self.plane = 0.0
         self.setAspectLocked(axes == (0, 1))  # true shapes from above; the side view stretches heights
         self.getPlotItem().setMenuEnabled(False, enableViewBoxMenu=False)  # right-click: no plotting-library menu
         self.showGrid(x=True, y=True, alpha=0.25)
         self.setLabel("bottom", "x", units="m")
         self.setLabel("left", "y" if axes[1] == 1 else "z", units="m")
-        self.outline = pg.PlotDataItem(pen=pg.mkPen(*(int(255 * c) for c in palette.VOLUME[:3]), width=1))
+        self.outline = pg.PlotDataItem()
         #: Where obstacles and keep-out boxes meet the plane points are added in (altitude / side-view y).
-        self.obstacles = pg.PlotDataItem(connect="pairs",
-                                         pen=pg.mkPen(*(int(255 * c) for c in palette.OBSTACLE_EDGE[:3]), width=2))
+        self.obstacles = pg.PlotDataItem(connect="pairs")
         self.scatter = _PassiveScatter(size=10, pxMode=True)
-        for item in (self.outline, self.obstacles, self.scatter):
+        self.hover_label = pg.TextItem(anchor=(0, 1))
+        self.hover_label.setZValue(10)
+        self.hover_label.hide()
+        for item in (self.outline, self.obstacles, self.scatter, self.hover_label):
             self.addItem(item)
+        self.box.sigRangeChanged.connect(lambda *_args: self.scale_markers())
+
+    def apply_theme(self) -> None:
+        look = theme.current()
+        self.setBackground(look.qcolor(look.canvas))
+        theme.style_plot(self.getPlotItem(), look)
+        self.outline.setPen(pg.mkPen(look.qcolor(look.volume), width=1))
+        self.obstacles.setPen(pg.mkPen(look.qcolor(look.obstacle_edge[:3] + (1.0,)), width=2))
+        self.hover_label.setColor(look.qcolor(look.canvas_text))
 
     def show_volume(self, bounds: np.ndarray) -> None:
         """Outline of the flight volume ``(2, 3)`` in this projection."""
@@ -122,21 +154,46 @@ class ProjectionPlot(pg.PlotWidget):
         (x0, y0), (x1, y1) = bounds[:, list(self.axes)]
         self.setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0.05)
 
-    def show_points(self, points: np.ndarray, selected: set[int], close: np.ndarray) -> None:
-        self.points = points
-        brushes = [pg.mkBrush(*(int(255 * c) for c in (palette.TOO_CLOSE if close[k] else palette.FORMATION)))
-                   for k in range(len(points))]
-        pens = [pg.mkPen("w", width=2.5) if k in selected else pg.mkPen(None) for k in range(len(points))]
-        self.scatter.setData(pos=points[:, list(self.axes)], brush=brushes, pen=pens)
+    def show_points(self, points: np.ndarray, colours: np.ndarray, selected: set[int], widths: np.ndarray) -> None:
+        """``points`` ``(n, 3)`` m filled with ``colours`` ``(n, 4)``, ``selected`` outlined, markers
+        ``widths`` ``(n,)`` m wide at the current zoom."""
+        look = theme.current()
+        self.points, self.widths = points, widths
+        brushes = [pg.mkBrush(look.qcolor(tuple(c))) for c in colours]
+        outline = pg.mkPen(look.qcolor(look.selected_outline), width=2.5)
+        pens = [outline if k in selected else pg.mkPen(None) for k in range(len(points))]
+        self.scatter.setData(pos=points[:, list(self.axes)], brush=brushes, pen=pens, size=self.marker_pixels())
+
+    def marker_pixels(self) -> np.ndarray:
+        """``(n,)`` px: each point's clearance width at the current zoom, within :data:`MARKER_PIXELS`."""
+        px = self.box.viewPixelSize()[0] if self.box.width() > 0 else 1.0
+        return np.clip(self.widths / max(px, 1e-9), *MARKER_PIXELS)
+
+    def scale_markers(self) -> None:
+        if len(self.points):
+            self.scatter.setSize(self.marker_pixels())
 
     def pick(self, x: float, y: float) -> int | None:
-        """Index of the point within :data:`PICK_PIXELS` of view position (x, y), or None."""
+        """Index of the point within :data:`PICK_PIXELS` of view position (x, y), or None; of
+        points stacked there, the one nearest this view's working plane."""
         if not len(self.points):
             return None
         px, py = self.box.viewPixelSize()
         d = np.hypot((self.points[:, self.axes[0]] - x) / px, (self.points[:, self.axes[1]] - y) / py)
-        k = int(np.argmin(d))
-        return k if d[k] <= PICK_PIXELS else None
+        near = np.flatnonzero(d <= PICK_PIXELS)
+        if not len(near):
+            return None
+        depth = 3 - sum(self.axes)  # the axis this view looks along
+        return int(near[np.lexsort((d[near], np.abs(self.points[near, depth] - self.plane)))[0]])
+
+    def show_hover(self, k: int | None, text: str) -> None:
+        """Write ``text`` beside point ``k`` (hidden for None)."""
+        if k is None:
+            self.hover_label.hide()
+            return
+        self.hover_label.setText(text)
+        self.hover_label.setPos(*self.points[k, list(self.axes)])
+        self.hover_label.show()
 
 
 class LayoutView(QWidget):
@@ -169,7 +226,7 @@ class LayoutView(QWidget):
         split = QSplitter(Qt.Orientation.Vertical)
         split.addWidget(self.top)
         split.addWidget(self.side)
-        split.setSizes([600, 250])
+        split.setSizes([500, 400])  # the side view is a working view too, not a strip
         layout = QVBoxLayout(self)
         layout.addLayout(controls)
         layout.addWidget(split, 1)
@@ -178,7 +235,10 @@ class LayoutView(QWidget):
             plot.box.clicked.connect(lambda x, y, mods, plot=plot: self._clicked(plot, x, y, mods))
             plot.box.drag_started.connect(lambda x, y, plot=plot: self._drag_start(plot, x, y))
             plot.box.dragged.connect(lambda x, y, done, plot=plot: self._drag(plot, x, y, done))
+            plot.scene().sigMouseMoved.connect(lambda pos, plot=plot: self._hover(plot, pos))
         document.scene_changed.connect(self.refresh)
+        document.plan_changed.connect(self.refresh)
+        document.selection_changed.connect(self._document_selection)
         document.formation_chosen.connect(self._formation_chosen)
         self.altitude.valueChanged.connect(self.refresh_sections)
         self.section_y.valueChanged.connect(self.refresh_sections)
@@ -186,8 +246,13 @@ class LayoutView(QWidget):
                                  "meet this height")
         self.section_y.setToolTip("y of points added in the side view; obstacles are drawn where they meet "
                                   "this plane")
-        self.refresh()
+        self.apply_theme()
         self.frame()
+
+    def apply_theme(self) -> None:
+        for plot in (self.top, self.side):
+            plot.apply_theme()
+        self.refresh()
 
     def refresh_sections(self) -> None:
         """Draw where meshes and keep-out boxes meet the top view's altitude and the side view's
@@ -229,37 +294,113 @@ class LayoutView(QWidget):
     def _formation_chosen(self, _name: str) -> None:
         self.selected = set()
         self.refresh()
+        self._document_selection()
+
+    def drones_on_points(self) -> np.ndarray | None:
+        """``(n_points,)`` index of the drone standing on each point of the active formation (−1:
+        none), or None where that is not known: the start formation's point k is drone k's start;
+        a formation the current plan flies to has the plan's assignment."""
+        scene, f = self.document.scene, self.formation
+        n = len(scene.fleet.drones)
+        if f.name == scene.timeline.start and len(f.points) == n:
+            return np.arange(n)
+        plan = self.document.plan
+        if plan is not None and self.document.plan_is_current:
+            for t in plan.transitions:
+                if t.problem.target == f.name:
+                    on = np.full(len(f.points), -1)
+                    on[t.assignment.goal_of] = np.arange(n)
+                    return on
+        return None
+
+    def point_colours(self, close: np.ndarray) -> np.ndarray:
+        """``(n, 4)`` RGBA: the group's colour (the formation colour without groups), red where too close."""
+        look, f = theme.current(), self.formation
+        colours = np.tile(np.asarray(look.formation, dtype=float), (len(f.points), 1))
+        if f.groups is not None:
+            names = list(dict.fromkeys(f.groups))
+            palette = theme.group_colours(len(names), look)
+            colours = palette[[names.index(g) for g in f.groups]]
+        colours[close] = look.too_close
+        return colours
 
     def refresh(self) -> None:
         f = self.formation
         points = f.positions
         self.selected = {k for k in self.selected if k < len(points)}
         scene = self.document.scene
-        close = too_close(points, scene.fleet.clearance, possible_shapes(scene)[f.name])
+        shapes = possible_shapes(scene)[f.name]
+        close = too_close(points, scene.fleet.clearance, shapes)
+        colours, widths = self.point_colours(close), point_widths(scene.fleet.clearance, shapes)
+        self.top.plane, self.side.plane = self.altitude.value(), self.section_y.value()
         for plot in (self.top, self.side):
-            plot.show_points(points, self.selected, close)
+            plot.show_points(points, colours, self.selected, widths)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)
         self.refresh_sections()
         n_fleet = len(self.document.scene.fleet.drones)
         text = f"{f.name}: {len(points)} points for {n_fleet} drones"
+        if f.groups is not None:
+            text += f", {len(set(f.groups))} groups (colours)"
         if close.any():
             text += f"; {int(close.sum())} points closer than the clearance (red)"
-        self.status.setText(text)
+        self.status.setText(text + ". Shift-click adds a point on top of others.")
+
+    def hover_text(self, k: int) -> str:
+        """What the label beside point ``k`` says: its number, group and drone where known."""
+        f, parts = self.formation, [f"point {k}"]
+        if f.groups is not None:
+            parts.append(f"group {f.groups[k]}")
+        on = self.drones_on_points()
+        if on is not None and on[k] >= 0:
+            parts.append(f"drone {self.document.scene.fleet.drones[on[k]].id}")
+        return " · ".join(parts)
+
+    def _hover(self, plot: ProjectionPlot, scene_pos) -> None:
+        p = plot.box.mapSceneToView(scene_pos)
+        k = plot.pick(p.x(), p.y())
+        plot.show_hover(k, "" if k is None else self.hover_text(k))
 
     def _clicked(self, plot: ProjectionPlot, x: float, y: float, modifiers) -> None:
-        k = plot.pick(x, y)
+        k = None if modifiers & Qt.KeyboardModifier.ShiftModifier else plot.pick(x, y)
         if k is not None:
             if modifiers & Qt.KeyboardModifier.ControlModifier:
                 self.selected ^= {k}
             else:
                 self.selected = {k}
             self.refresh()
+            self._selection_to_document()
             return
         f = self.formation
         points = np.vstack([f.positions, self._point_from(plot, x, y)])
-        groups = None if f.groups is None else f.groups + (f.groups[-1],)
+        group = None if f.groups is None else self._group_for_new_point()
         self.selected = {len(points) - 1}
-        self.document.edit_formation(f.name, points, groups, f"add point to {f.name}")
+        self.document.edit_formation(f.name, points, None if group is None else f.groups + (group,),
+                                     f"add point to {f.name}")
+        if group is not None:
+            self.status.setText(f"New point added to group {group}: it joins the selected point's group (the "
+                                "last group when none is selected).")
+
+    def _group_for_new_point(self) -> str:
+        """A new point joins the group of the selected point (the last group when none is selected)."""
+        f = self.formation
+        chosen = sorted(k for k in self.selected if k < len(f.groups))
+        return f.groups[chosen[-1]] if chosen else f.groups[-1]
+
+    def _selection_to_document(self) -> None:
+        """Selected points → selected drones, where the formation says who stands where."""
+        on = self.drones_on_points()
+        if on is not None:
+            self.document.select(tuple(int(on[k]) for k in self.selected if on[k] >= 0))
+
+    def _document_selection(self) -> None:
+        """Selected drones → selected points (where known), outlined in both views."""
+        on = self.drones_on_points()
+        if on is None:
+            return
+        wanted = {int(k) for k in np.flatnonzero(np.isin(on, self.document.selected))}
+        if wanted != self.selected:
+            self.selected = wanted
+            self.refresh()
 
     def _drag_start(self, plot: ProjectionPlot, x: float, y: float) -> None:
         self._drag_index = plot.pick(x, y)

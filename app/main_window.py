@@ -7,14 +7,14 @@ import os
 from pathlib import Path
 
 from PySide6.QtCore import Qt
-from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import (
+    QApplication,
     QDockWidget,
     QFileDialog,
     QLabel,
     QMainWindow,
     QMessageBox,
-    QPlainTextEdit,
     QProgressBar,
     QPushButton,
     QTabWidget,
@@ -25,8 +25,8 @@ from PySide6.QtWidgets import (
 from core import SAFETY_CAUTION
 from core.errors import SkyloomError
 from core.export.target import fresh_folder
-from core.plan_summary import plan_summary_lines
 
+from . import theme
 from .document import Document
 from .drone_list import DroneList
 from .export_dialog import ExportDialog
@@ -36,15 +36,15 @@ from .formation_panel import FormationPanel
 from .layout_view import LayoutView
 from .motion_plots import MotionPlots
 from .plan_runner import PlanRunner
+from .plan_summary_view import PlanSummaryView
 from .planner_panel import PlannerPanel
 from .site_view import SiteView
 from .time_bar import TimeBar
 from .timeline_panel import TimelinePanel
 
 SCENE_FILTER = "Skyloom scenes (*.json)"
-#: First lines of the plan summary while the plan does not match the scene as edited.
-STALE_NOTE = ("PLAN OUT OF DATE: the scene was edited after this plan was made. What follows was verified "
-              "for the scene before those edits, not for the scene as it is now; plan again (F5).")
+#: Settings key of the chosen look ("light" or "dark").
+THEME_KEY = "theme"
 
 
 class MainWindow(QMainWindow):
@@ -72,8 +72,7 @@ class MainWindow(QMainWindow):
         self.planner = PlannerPanel(document)
         self.plots = MotionPlots(document)
         self.findings = FindingsTable(document)
-        self.summary = QPlainTextEdit(readOnly=True)  # selectable and copyable
-        self.summary.setLineWrapMode(QPlainTextEdit.LineWrapMode.WidgetWidth)
+        self.summary = PlanSummaryView(document)
         left = QTabWidget()
         self.drones = DroneList(document)
         for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.fleet, "Fleet"),
@@ -85,7 +84,7 @@ class MainWindow(QMainWindow):
         bottom.addTab(self.findings, "Findings")
         bottom.addTab(self.summary, "Plan summary")
         inspect = self._dock(bottom, "Inspect", Qt.DockWidgetArea.BottomDockWidgetArea)
-        self.plan_button, self.cancel_button = QPushButton("Plan"), QPushButton("Cancel")
+        self.plan_button, self.cancel_button = QPushButton("Plan", objectName="primary"), QPushButton("Cancel")
         self.cancel_button.setEnabled(False)
         self.progress = QProgressBar(maximum=1000)
         self.progress.setMaximumWidth(320)
@@ -105,14 +104,12 @@ class MainWindow(QMainWindow):
         self.runner.failed.connect(self._show_error)
         self.findings.focus_requested.connect(self._focus_drones)
         document.message.connect(self._show_error)
-        document.plan_changed.connect(self._show_summary)
-        document.plan_stale_changed.connect(self._show_summary)
         document.plan_stale_changed.connect(self._update_title)
         document.path_changed.connect(self._update_title)
         document.undo_stack.cleanChanged.connect(self._update_title)
         document.formation_chosen.connect(self.site.show_formation)
         self._update_title()
-        self._show_summary()
+        self.set_theme(str(document.settings.value(THEME_KEY, theme.DARK.name)))
         self.resize(1500, 950)
         self.resizeDocks([inspect], [420], Qt.Orientation.Vertical)
 
@@ -151,6 +148,14 @@ class MainWindow(QMainWindow):
         self._action(view, "Frame the &site", self.site.frame_all, "Home")
         only = self._action(view, "&Curves of the selected drones only", self.site.show_selected_curves_only)
         only.setCheckable(True)
+        view.addSeparator()
+        looks = QActionGroup(self)
+        self.theme_actions = {}
+        for name, text in (("light", "&Light look"), ("dark", "&Dark look")):
+            action = self._action(view, text, lambda _checked=False, name=name: self.set_theme(name))
+            action.setCheckable(True)
+            looks.addAction(action)
+            self.theme_actions[name] = action
         help_menu = self.menuBar().addMenu("&Help")
         self._action(help_menu, "&Safety", lambda: QMessageBox.information(self, "Safety", SAFETY_CAUTION))
 
@@ -161,6 +166,16 @@ class MainWindow(QMainWindow):
         action.triggered.connect(slot)
         menu.addAction(action)
         return action
+
+    def set_theme(self, name: str) -> None:
+        """Use the light or dark look in the panels, the 3D view, the layout and the plots (and
+        remember it); an unknown name falls back to the dark look."""
+        look = theme.THEMES.get(name, theme.DARK)
+        theme.apply_to_application(QApplication.instance(), look)
+        self.document.settings.setValue(THEME_KEY, look.name)
+        self.theme_actions[look.name].setChecked(True)
+        for view in (self.site, self.layout_view, self.plots):
+            view.apply_theme()
 
     # --- files -------------------------------------------------------------------------------
     def open_path(self, path: Path) -> bool:
@@ -266,15 +281,6 @@ class MainWindow(QMainWindow):
         self.plan_button.setEnabled(True)
         self.cancel_button.setEnabled(False)
         self.stage.setText(text)
-
-    def _show_summary(self) -> None:
-        plan = self.document.plan
-        if plan is None:
-            self.summary.setPlainText("No plan yet: press Plan (F5).")
-            return
-        stale = [] if self.document.plan_is_current else [STALE_NOTE, ""]
-        lines = [*stale, *plan.report.summary_lines(), "", *plan_summary_lines(plan), "", f"Safety: {SAFETY_CAUTION}"]
-        self.summary.setPlainText("\n".join(lines))
 
     def _focus_drones(self, drones: tuple) -> None:
         plan = self.document.plan

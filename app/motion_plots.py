@@ -1,59 +1,91 @@
-"""Speed, acceleration, jerk and snap over time for the selected drones (limit lines drawn), and
-the fleet's smallest separation ratio over time (1 = the clearance)."""
+"""Motion of the plotted drones over time, one quantity at a time (speed, acceleration, jerk or
+snap, chosen with the buttons above), beside the fleet's smallest separation ratio over time
+(1 = the clearance). Limits are drawn as lines; a legend names each plotted drone in the colour
+the 3D view uses for it. Two plots side by side stay legible in a short dock (1280×720)."""
 
 from __future__ import annotations
+
+import html
 
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QButtonGroup, QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
 
 from core.inspection import motion_curves, sample_times
 
-from . import palette
+from . import theme
 from .document import Document
 
 #: Drones plotted when none is selected.
 DEFAULT_PLOTTED = 6
+#: Drones named in the legend (the rest are counted).
+LEGEND_NAMES = 12
+#: Quantity buttons: (button text, key of :func:`core.inspection.motion_curves`, unit, tooltip).
+QUANTITIES = (
+    ("Speed", "speed", "m/s", "horizontal speed (solid) and vertical speed (dashed) against each type's limits"),
+    ("Acceleration", "acceleration", "m/s²", "magnitude of the acceleration against each type's limit"),
+    ("Jerk", "jerk", "m/s³", "magnitude of the jerk (rate of change of acceleration): high values shake the airframe"),
+    ("Snap", "snap", "m/s⁴", "magnitude of the snap (what the smoothing minimises): a measure of how hard the "
+                              "motors work to follow the curve"),
+)
 
 
 class MotionPlots(QWidget):
-    """Five stacked plots sharing the time axis, each with a time cursor."""
-
-    ROWS = (("speed", "m/s"), ("accel.", "m/s²"), ("jerk", "m/s³"), ("snap", "m/s⁴"), ("min. sep. ratio", ""))
+    """The chosen quantity and the separation ratio side by side, sharing the time axis and a
+    movable time cursor."""
 
     def __init__(self, document: Document, parent=None):
         super().__init__(parent)
         self.document = document
+        self.buttons = QButtonGroup(self)
+        bar = QHBoxLayout()
+        for k, (text, _, _, tip) in enumerate(QUANTITIES):
+            button = QPushButton(text, checkable=True, checked=k == 0, toolTip=tip)
+            self.buttons.addButton(button, k)
+            bar.addWidget(button)
+        self.legend = QLabel(textFormat=Qt.TextFormat.RichText, wordWrap=True)
+        bar.addWidget(self.legend, 1)
         self.layout_widget = pg.GraphicsLayoutWidget()
-        self.plots: list[pg.PlotItem] = []
+        self.motion = self.layout_widget.addPlot(row=0, col=0)
+        self.separation = self.layout_widget.addPlot(row=0, col=1, title="smallest separation ratio (1 = clearance)", size="10pt")
+        self.layout_widget.ci.layout.setColumnStretchFactor(0, 3)
+        self.layout_widget.ci.layout.setColumnStretchFactor(1, 2)
+        self.plots = [self.motion, self.separation]
         self.cursors: list[pg.InfiniteLine] = []
-        for row, (name, unit) in enumerate(self.ROWS):
-            plot = self.layout_widget.addPlot(row=row, col=0)
-            plot.setLabel("left", name, units=unit)
+        for plot in self.plots:
             plot.showGrid(x=True, y=True, alpha=0.2)
             plot.setMenuEnabled(False, enableViewBoxMenu=False)  # right-click: no plotting-library menu
-            if self.plots:
-                plot.setXLink(self.plots[0])
-            cursor = pg.InfiniteLine(angle=90, movable=True, pen=pg.mkPen("w", width=1))
+            plot.setLabel("bottom", "time", units="s")
+            cursor = pg.InfiniteLine(angle=90, movable=True)
             cursor.sigPositionChanged.connect(lambda line: self.document.set_time(line.value()))
-            plot.addItem(cursor)
-            self.plots.append(plot)
             self.cursors.append(cursor)
-        for plot in self.plots[:-1]:  # one time axis, at the bottom
-            plot.getAxis("bottom").setStyle(showValues=False)
-            plot.getAxis("bottom").setHeight(4)
-        self.plots[-1].setLabel("bottom", "time", units="s")
+        self.separation.setXLink(self.motion)
         #: Shown instead of the plots until there is a plan (empty axes say nothing).
         self.placeholder = QLabel("No plan yet. Press Plan (F5) to see each drone's speed, acceleration, jerk "
                                   "and snap against its limits, and the fleet's smallest separation over time.",
                                   wordWrap=True, alignment=Qt.AlignmentFlag.AlignCenter)
         column = QVBoxLayout(self)
-        column.addWidget(self.placeholder)
-        column.addWidget(self.layout_widget)
+        column.addLayout(bar)
+        column.addWidget(self.placeholder, 1)
+        column.addWidget(self.layout_widget, 1)
+        self.buttons.idClicked.connect(lambda _k: self.refresh())
         document.plan_changed.connect(self.refresh)
         document.selection_changed.connect(self.refresh)
         document.time_changed.connect(self.move_cursor)
+        self.apply_theme()
+
+    @property
+    def quantity(self) -> tuple[str, str, str, str]:
+        """The chosen row of :data:`QUANTITIES`."""
+        return QUANTITIES[max(self.buttons.checkedId(), 0)]
+
+    def apply_theme(self) -> None:
+        look = theme.current()
+        self.layout_widget.setBackground(look.qcolor(look.canvas))
+        for plot, cursor in zip(self.plots, self.cursors, strict=True):
+            theme.style_plot(plot, look)
+            cursor.setPen(pg.mkPen(look.qcolor(look.cursor), width=1))
         self.refresh()
 
     def plotted_drones(self) -> np.ndarray:
@@ -70,34 +102,52 @@ class MotionPlots(QWidget):
         plan = self.document.plan
         self.placeholder.setVisible(plan is None)
         self.layout_widget.setVisible(plan is not None)
+        self.legend.setVisible(plan is not None)
         if plan is None:
             return
+        look = theme.current()
+        text, key, unit, _ = self.quantity
+        self.motion.setLabel("left", text.lower(), units=unit)
         traj = plan.trajectory
         drones = self.plotted_drones()
         times = sample_times(traj, 32)
         curves = motion_curves(traj, drones, times)
-        colours = palette.drone_colours(traj.n_drones)
+        colours = theme.drone_colours(traj.n_drones)
+        limit_pen = pg.mkPen(look.qcolor(look.limit), width=1, style=Qt.PenStyle.DashDotLine)
+        # Limit names at the right end, above their lines (inside the plot, clear of the axis).
+        label_options = {"color": look.qcolor(look.limit), "position": 0.99, "anchors": [(1, 1), (1, 1)]}
         for k, d in enumerate(drones):
-            pen = pg.mkPen(*(int(255 * c) for c in colours[d][:3]), width=1.5)
-            self.plots[0].plot(times, curves["speed_xy"][:, k], pen=pen)
-            dashed = pg.mkPen(pen.color(), width=1.5, style=Qt.PenStyle.DashLine)
-            self.plots[0].plot(times, curves["speed_z"][:, k], pen=dashed)
-            for row, name in ((1, "acceleration"), (2, "jerk"), (3, "snap")):
-                self.plots[row].plot(times, curves[name][:, k], pen=pen)
+            pen = pg.mkPen(look.qcolor(tuple(colours[d])), width=1.5)
+            if key == "speed":
+                self.motion.plot(times, curves["speed_xy"][:, k], pen=pen)
+                self.motion.plot(times, curves["speed_z"][:, k], pen=pg.mkPen(pen.color(), width=1.5,
+                                                                               style=Qt.PenStyle.DashLine))
+            else:
+                self.motion.plot(times, curves[key][:, k], pen=pen)
         limits = plan.scene.fleet.limits[drones]
-        limit_pen = pg.mkPen(255, 90, 90, width=1, style=Qt.PenStyle.DotLine)
-        for value in np.unique(limits[:, 0]):
-            self.plots[0].addItem(pg.InfiniteLine(pos=value, angle=0, pen=limit_pen, label="xy limit"))
-        for value in np.unique(limits[:, 1]):
-            self.plots[0].addItem(pg.InfiniteLine(pos=value, angle=0, pen=limit_pen, label="z limit"))
-        for value in np.unique(limits[:, 2]):
-            self.plots[1].addItem(pg.InfiniteLine(pos=value, angle=0, pen=limit_pen, label="limit"))
+        lines = {"speed": ((0, "xy limit"), (1, "z limit")), "acceleration": ((2, "limit"),)}.get(key, ())
+        for column, label in lines:
+            for value in np.unique(limits[:, column]):
+                self.motion.addItem(pg.InfiniteLine(pos=value, angle=0, pen=limit_pen, label=label,
+                                                    labelOpts=label_options))
         timeline = plan.report.separation_timeline
         if timeline.get("t"):
-            self.plots[4].plot(np.asarray(timeline["t"]), np.asarray(timeline["min_ratio"], dtype=float),
-                               pen=pg.mkPen(120, 200, 255, width=1.5))
-        self.plots[4].addItem(pg.InfiniteLine(pos=1.0, angle=0, pen=limit_pen, label="clearance"))
+            self.separation.plot(np.asarray(timeline["t"]), np.asarray(timeline["min_ratio"], dtype=float),
+                                 pen=pg.mkPen(look.qcolor(look.volume), width=1.5))
+        self.separation.addItem(pg.InfiniteLine(pos=1.0, angle=0, pen=limit_pen, label="clearance",
+                                                labelOpts=label_options))
+        self.legend.setText(self._legend_html(plan.scene.fleet.ids, drones, colours))
         self.move_cursor(self.document.time)
+
+    def _legend_html(self, ids, drones: np.ndarray, colours: np.ndarray) -> str:
+        """Coloured squares with the plotted drones' ids (the first :data:`LEGEND_NAMES`)."""
+        parts = []
+        for d in drones[:LEGEND_NAMES]:
+            r, g, b = (int(round(255 * c)) for c in colours[d][:3])
+            parts.append(f'<span style="color: rgb({r},{g},{b})">■</span>&nbsp;{html.escape(ids[d])}')
+        more = f" and {len(drones) - LEGEND_NAMES} more" if len(drones) > LEGEND_NAMES else ""
+        which = "selected" if self.document.selected else "first drones (select drones to plot them)"
+        return f"{which}: " + " &nbsp; ".join(parts) + more
 
     def move_cursor(self, t: float) -> None:
         for cursor in self.cursors:
@@ -108,3 +158,4 @@ class MotionPlots(QWidget):
     def curve_count(self) -> int:
         """Data curves drawn (for tests and the status line)."""
         return sum(len(p.listDataItems()) for p in self.plots)
+

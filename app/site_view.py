@@ -14,7 +14,7 @@ from PySide6.QtWidgets import QLabel
 from core.inspection import sample_times
 from core.scene.meshes import feature_edges
 
-from . import palette
+from . import theme
 from .document import Document
 
 #: Curve samples per piece (polyline vertices).
@@ -52,12 +52,11 @@ class SiteView(gl.GLViewWidget):
     def __init__(self, document: Document, parent=None):
         super().__init__(parent)
         self.document = document
-        self.setBackgroundColor(tuple(int(255 * c) for c in palette.BACKGROUND[:3]))
         self._mesh_items: list[gl.GLGraphicsItem.GLGraphicsItem] = []
         self._box_items: list[gl.GLMeshItem] = []
-        self._volume = gl.GLLinePlotItem(mode="lines", color=palette.VOLUME, width=1.0, antialias=True)
+        self._volume = gl.GLLinePlotItem(mode="lines", width=1.0, antialias=True)
         self._curves = gl.GLLinePlotItem(mode="lines", width=1.5, antialias=True)
-        self._formation = gl.GLScatterPlotItem(size=6.0, color=palette.FORMATION, pxMode=True, glOptions="translucent")
+        self._formation = gl.GLScatterPlotItem(size=6.0, pxMode=True, glOptions="translucent")
         self._drones = gl.GLScatterPlotItem(size=9.0, pxMode=True, glOptions="translucent")  # not additive: keeps hues
         self._ellipsoids: list[gl.GLMeshItem] = []
         self._ground: list[gl.GLGraphicsItem.GLGraphicsItem] = []
@@ -65,35 +64,45 @@ class SiteView(gl.GLViewWidget):
         self._shown_once = False
         #: The ground grid's spacing, over the view's top-left corner.
         self.scale_label = QLabel(self)
-        r, g, b = (int(255 * c) for c in palette.SCALE_TEXT[:3])
-        self.scale_label.setStyleSheet(f"color: rgb({r}, {g}, {b}); background: transparent; padding: 4px;")
         self._sphere = gl.MeshData.sphere(rows=12, cols=18)
         for item in (self._volume, self._curves, self._formation, self._drones):
             self.addItem(item)
         self.shown_formation: str | None = None
         self.selected_curves_only = False
         self._colours = np.zeros((0, 4))
+        #: Planned curves as segment end points ``(2M, 3)`` and the drone of each end point ``(2M,)``.
+        self._segments = np.zeros((0, 3), dtype=np.float32)
+        self._segment_drone = np.zeros(0, dtype=int)
         self._press = None
         document.scene_changed.connect(self.refresh_scene)
         document.plan_changed.connect(self.refresh_plan)
         document.time_changed.connect(self.refresh_time)
         document.selection_changed.connect(self._selection_changed)
-        self.refresh_scene()
+        self.apply_theme()
         self.frame_all()
+
+    def apply_theme(self) -> None:
+        """Draw everything again in :func:`theme.current`'s colours."""
+        look = theme.current()
+        self.setBackgroundColor(look.rgb255(look.canvas))
+        r, g, b = look.rgb255(look.canvas_text)
+        self.scale_label.setStyleSheet(f"color: rgb({r}, {g}, {b}); background: transparent; padding: 4px;")
+        self.refresh_scene()
+        self.refresh_plan()
 
     # --- scene -------------------------------------------------------------------------------
     def refresh_scene(self) -> None:
-        scene = self.document.scene
-        self._volume.setData(pos=box_edges(scene.site.flight_volume.bounds))
+        scene, look = self.document.scene, theme.current()
+        self._volume.setData(pos=box_edges(scene.site.flight_volume.bounds), color=look.volume)
         for item in self._mesh_items + self._box_items:
             self.removeItem(item)
         self._mesh_items = [
             gl.GLMeshItem(vertexes=np.asarray(m.mesh.vertices, dtype=np.float32), faces=np.asarray(m.mesh.faces),
-                          smooth=False, shader="shaded", color=palette.OBSTACLE, glOptions="opaque")
+                          smooth=False, shader="shaded", color=look.obstacle, glOptions="opaque")
             for m in self.document.meshes()]
         # Their creases as lines: faces turned from the light stay legible.
         self._mesh_items += [gl.GLLinePlotItem(pos=feature_edges(m.mesh).astype(np.float32), mode="lines",
-                                               color=palette.OBSTACLE_EDGE, width=1.0, antialias=True)
+                                               color=look.obstacle_edge, width=1.0, antialias=True)
                              for m in self.document.meshes()]
         self._box_items = [self._box_item(b.bounds) for b in scene.site.keep_out]
         for item in self._mesh_items + self._box_items:
@@ -107,7 +116,7 @@ class SiteView(gl.GLViewWidget):
             self.removeItem(item)
         (x0, y0, z0), (x1, y1, _) = bounds
         self.ground_spacing = spacing = grid_spacing(max(x1 - x0, y1 - y0))
-        colour = tuple(int(255 * c) for c in palette.GROUND_GRID)
+        colour = tuple(int(255 * c) for c in theme.current().grid)
         grid = gl.GLGridItem(size=QVector3D(x1 - x0, y1 - y0, 1.0), color=colour)
         grid.setSpacing(spacing, spacing, 1.0)
         grid.translate(0.5 * (x0 + x1), 0.5 * (y0 + y1), z0)
@@ -122,7 +131,7 @@ class SiteView(gl.GLViewWidget):
         f = self.document.formation(name) if name else None
         f = f or formations[0]
         self.shown_formation = f.name
-        self._formation.setData(pos=f.positions, color=palette.FORMATION)
+        self._formation.setData(pos=f.positions, color=theme.current().formation)
 
     def _box_item(self, bounds: np.ndarray) -> gl.GLMeshItem:
         mesh = gl.MeshData.cylinder(rows=1, cols=4, radius=[0.5 * np.sqrt(2)] * 2, length=1.0)
@@ -130,46 +139,61 @@ class SiteView(gl.GLViewWidget):
         rotated = np.c_[(v[:, 0] - v[:, 1]) / np.sqrt(2), (v[:, 0] + v[:, 1]) / np.sqrt(2), v[:, 2]]
         size = bounds[1] - bounds[0]
         mesh.setVertexes((np.array([0.5, 0.5, 0.0]) + rotated) * size + bounds[0])
-        return gl.GLMeshItem(meshdata=mesh, color=palette.KEEP_OUT, shader="shaded", glOptions="translucent")
+        return gl.GLMeshItem(meshdata=mesh, color=theme.current().keep_out, shader="shaded", glOptions="translucent")
 
     # --- plan --------------------------------------------------------------------------------
     def refresh_plan(self) -> None:
+        """Sample every drone's curve (or the selected drones' only) and draw it."""
         plan = self.document.plan
         if plan is None:
-            self._curves.setData(pos=np.zeros((0, 3)))
+            self._segments, self._segment_drone = np.zeros((0, 3), dtype=np.float32), np.zeros(0, dtype=int)
+            self._curves.setData(pos=self._segments)
             self._drones.setData(pos=np.zeros((0, 3)))
             return
         traj = plan.trajectory
-        self._colours = palette.drone_colours(traj.n_drones)
+        self._colours = theme.drone_colours(traj.n_drones)
         shown = np.array(self.document.selected, dtype=int) if self.selected_curves_only and self.document.selected \
             else np.arange(traj.n_drones)
         times = sample_times(traj, CURVE_SAMPLES)
         points = np.swapaxes(traj.evaluate(times)[:, shown], 0, 1)  # (shown, T, 3)
         t = points.shape[1]
-        segments = np.stack([points[:, :-1], points[:, 1:]], axis=2).reshape(-1, 3)
-        colours = np.repeat(self._colours[shown], 2 * (t - 1), axis=0)
-        colours[:, 3] = 0.8
-        self._curves.setData(pos=segments.astype(np.float32), color=colours.astype(np.float32))
+        self._segments = np.stack([points[:, :-1], points[:, 1:]], axis=2).reshape(-1, 3).astype(np.float32)
+        self._segment_drone = np.repeat(shown, 2 * (t - 1))
+        self._colour_curves()
         self.refresh_time()
 
+    def _colour_curves(self) -> None:
+        """Curves in their drones' colours; while drones are selected the others are dimmed, so
+        the selected curves read in the colours the motion plots and their legend use."""
+        colours = self._colours[self._segment_drone].copy()
+        colours[:, 3] = 0.8
+        if self.document.selected:
+            others = ~np.isin(self._segment_drone, self.document.selected)
+            colours[others] = theme.current().dimmed
+        self._curves.setData(pos=self._segments, color=colours.astype(np.float32))
+
     def refresh_time(self, *_args) -> None:
+        """Drones at the document's time (selected ones larger, the others dimmed while there is a
+        selection) and the selected drones' clearance ellipsoids."""
         plan = self.document.plan
         for item in self._ellipsoids:
             self.removeItem(item)
         self._ellipsoids = []
         if plan is None:
             return
+        look = theme.current()
         traj = plan.trajectory
         positions = traj.evaluate(np.array([self.document.time]))[0]
+        chosen = list(self.document.selected)
         colours = self._colours.copy()
         sizes = np.full(traj.n_drones, 9.0)
-        chosen = list(self.document.selected)
-        colours[chosen] = palette.SELECTED
-        sizes[chosen] = 15.0
+        if chosen:
+            colours[np.setdiff1d(np.arange(traj.n_drones), chosen)] = look.dimmed
+            sizes[chosen] = 15.0
         self._drones.setData(pos=positions, color=colours, size=sizes)
         semi = plan.scene.fleet.semi_axes
         for k in chosen[:8]:
-            item = gl.GLMeshItem(meshdata=self._sphere, smooth=True, shader="balloon", color=palette.ELLIPSOID,
+            item = gl.GLMeshItem(meshdata=self._sphere, smooth=True, shader="balloon", color=look.ellipsoid,
                                  glOptions="translucent")
             item.scale(*semi[k])
             item.translate(*positions[k])
@@ -184,8 +208,10 @@ class SiteView(gl.GLViewWidget):
     def _selection_changed(self) -> None:
         if self.selected_curves_only:
             self.refresh_plan()
-        else:
-            self.refresh_time()
+            return
+        if self.document.plan is not None:
+            self._colour_curves()
+        self.refresh_time()
 
     # --- picking -----------------------------------------------------------------------------
     def screen_positions(self, points: np.ndarray) -> np.ndarray:

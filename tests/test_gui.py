@@ -263,7 +263,7 @@ def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, m
     _plan(qtbot, window)
     doc = window.document
     assert doc.plan is not None and doc.plan.verified, getattr(window, "last_error", "")
-    assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.toPlainText()
+    assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.details.toPlainText()
     assert window.plots.layout_widget.isVisible() and window.plots.placeholder.isHidden()
     table = window.findings.table
     assert table.rowCount() > 0 and "PASSED" in window.findings.summary.text()
@@ -472,13 +472,13 @@ def test_an_edit_makes_the_plan_stale_everywhere_and_export_refuses_it(qtbot, ma
     doc.edit(replace(scene, planner=replace(scene.planner, smoothing_iterations=2)), "fewer rounds")
     assert not doc.plan_is_current and doc.plan is not None
     assert window.windowTitle().endswith("— plan out of date")
-    assert window.summary.toPlainText().startswith("PLAN OUT OF DATE")
+    assert window.summary.details.toPlainText().startswith("PLAN OUT OF DATE")
     assert window.findings.summary.text().startswith("Plan out of date")
     window.export()
     assert not opened and "edited after this plan" in window.last_error
     doc.undo_stack.undo()  # back to the planned scene: the plan is current again
     assert doc.plan_is_current and "out of date" not in window.windowTitle()
-    assert "OUT OF DATE" not in window.summary.toPlainText()
+    assert "OUT OF DATE" not in window.summary.details.toPlainText()
     window.export()
     assert len(opened) == 1
 
