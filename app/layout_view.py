@@ -206,6 +206,7 @@ class LayoutView(QWidget):
         self._drag_index: int | None = None
         self._drag_serial = 0
         self._section_key: tuple | None = None  # (site, altitude, side-view y) of the cuts drawn
+        self._split_set = False
         self.altitude = QDoubleSpinBox(minimum=-1000, maximum=10000, value=2.0, suffix=" m", singleStep=0.5,
                                        toolTip="height of points added in the top view")
         self.section_y = QDoubleSpinBox(minimum=-10000, maximum=10000, value=0.0, suffix=" m", singleStep=0.5,
@@ -223,10 +224,9 @@ class LayoutView(QWidget):
         controls.addRow(row)
         self.top = ProjectionPlot((0, 1), "from above")
         self.side = ProjectionPlot((0, 2), "from the side")
-        split = QSplitter(Qt.Orientation.Vertical)
+        self.split = split = QSplitter(Qt.Orientation.Vertical)
         split.addWidget(self.top)
         split.addWidget(self.side)
-        split.setSizes([500, 400])  # the side view is a working view too, not a strip
         layout = QVBoxLayout(self)
         layout.addLayout(controls)
         layout.addWidget(split, 1)
@@ -427,6 +427,18 @@ class LayoutView(QWidget):
         groups = None if f.groups is None else tuple(f.groups[k] for k in keep)
         self.selected = set()
         self.document.edit_formation(f.name, f.positions[keep], groups, f"delete points from {f.name}")
+
+    def resizeEvent(self, event):  # noqa: N802 - Qt's name
+        """Views side by side in a wide area, stacked in a tall one, each given half: the side view
+        is a working view, not a strip."""
+        super().resizeEvent(event)
+        wide = event.size().width() > 1.4 * event.size().height()
+        orientation = Qt.Orientation.Horizontal if wide else Qt.Orientation.Vertical
+        if orientation != self.split.orientation() or not self._split_set:
+            self._split_set = True
+            self.split.setOrientation(orientation)
+            half = (self.split.width() if wide else self.split.height()) // 2
+            self.split.setSizes([half, half])
 
     def keyPressEvent(self, event):  # noqa: N802 - Qt's name
         if event.key() in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace):

@@ -48,7 +48,8 @@ class MotionPlots(QWidget):
         bar.addWidget(self.legend, 1)
         self.layout_widget = pg.GraphicsLayoutWidget()
         self.motion = self.layout_widget.addPlot(row=0, col=0)
-        self.separation = self.layout_widget.addPlot(row=0, col=1, title="smallest separation ratio (1 = clearance)", size="10pt")
+        self.separation = self.layout_widget.addPlot(row=0, col=1)
+        self.separation.setTitle("smallest separation ratio (1 = clearance)", size="10pt")
         self.layout_widget.ci.layout.setColumnStretchFactor(0, 3)
         self.layout_widget.ci.layout.setColumnStretchFactor(1, 2)
         self.plots = [self.motion, self.separation]
@@ -114,8 +115,8 @@ class MotionPlots(QWidget):
         curves = motion_curves(traj, drones, times)
         colours = theme.drone_colours(traj.n_drones)
         limit_pen = pg.mkPen(look.qcolor(look.limit), width=1, style=Qt.PenStyle.DashDotLine)
-        # Limit names at the right end, above their lines (inside the plot, clear of the axis).
-        label_options = {"color": look.qcolor(look.limit), "position": 0.99, "anchors": [(1, 1), (1, 1)]}
+        # Limit names at the right end, under their lines (inside the plot, clear of the axis and the top).
+        label_options = {"color": look.qcolor(look.limit), "position": 0.99, "anchors": [(1, 0), (1, 0)]}
         for k, d in enumerate(drones):
             pen = pg.mkPen(look.qcolor(tuple(colours[d])), width=1.5)
             if key == "speed":
@@ -134,8 +135,8 @@ class MotionPlots(QWidget):
         if timeline.get("t"):
             self.separation.plot(np.asarray(timeline["t"]), np.asarray(timeline["min_ratio"], dtype=float),
                                  pen=pg.mkPen(look.qcolor(look.volume), width=1.5))
-        self.separation.addItem(pg.InfiniteLine(pos=1.0, angle=0, pen=limit_pen, label="clearance",
-                                                labelOpts=label_options))
+        above = {**label_options, "anchors": [(1, 1), (1, 1)]}  # the clearance line is at the bottom
+        self.separation.addItem(pg.InfiniteLine(pos=1.0, angle=0, pen=limit_pen, label="clearance", labelOpts=above))
         self.legend.setText(self._legend_html(plan.scene.fleet.ids, drones, colours))
         self.move_cursor(self.document.time)
 

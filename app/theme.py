@@ -143,4 +143,4 @@ def style_plot(item: pg.PlotItem, theme: Theme | None = None) -> None:
         axis.setPen(pg.mkPen(text))
         axis.setTextPen(pg.mkPen(text))
     if item.titleLabel.text:
-        item.setTitle(item.titleLabel.text, color=text.name())
+        item.titleLabel.setText(item.titleLabel.text, color=text.name())  # keeps its size
