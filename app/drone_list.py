@@ -1,11 +1,25 @@
 """Every drone of the fleet in one list (id, type, the group of its start point), with a filter
 box; selecting rows selects those drones in the document, so the 3D view, the motion plots and
-the findings all follow, and a selection made elsewhere (3D picking, a finding) shows here."""
+the findings all follow, and a selection made elsewhere (3D picking, a finding) shows here. The
+selected drones' type is set below the list (one undo step)."""
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from PySide6.QtCore import QItemSelection, QItemSelectionModel
-from PySide6.QtWidgets import QAbstractItemView, QLabel, QLineEdit, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QHBoxLayout,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
 
 from .document import Document
 
@@ -30,10 +44,18 @@ class DroneList(QWidget):
         self.table.verticalHeader().setVisible(False)
         self.table.horizontalHeader().setStretchLastSection(True)
         self.count = QLabel()
+        self.type_choice = QComboBox()
+        self.set_type_button = QPushButton("Set type of the selected")
+        type_row = QHBoxLayout()
+        for w in (QLabel("type"), self.type_choice, self.set_type_button):
+            type_row.addWidget(w)
+        type_row.addStretch(1)
         layout = QVBoxLayout(self)
         layout.addWidget(self.filter)
         layout.addWidget(self.table, 1)
         layout.addWidget(self.count)
+        layout.addLayout(type_row)
+        self.set_type_button.clicked.connect(lambda: self.set_type(self.type_choice.currentText()))
         self.filter.textChanged.connect(self._apply_filter)
         self.table.itemSelectionChanged.connect(self._selection_edited)
         document.scene_changed.connect(self.refill)
@@ -53,8 +75,22 @@ class DroneList(QWidget):
                 self.table.setItem(r, c, QTableWidgetItem(text))
         self.table.blockSignals(False)
         self.table.resizeColumnsToContents()
+        chosen = self.type_choice.currentText()
+        self.type_choice.clear()
+        self.type_choice.addItems([t.name for t in scene.fleet.types])
+        self.type_choice.setCurrentText(chosen)
         self._apply_filter(self.filter.text())
         self._show_selection()
+
+    def set_type(self, name: str) -> None:
+        """Give the selected drones drone type ``name``."""
+        scene = self.document.scene
+        chosen = set(self.document.selected)
+        if not chosen or name not in {t.name for t in scene.fleet.types}:
+            return
+        drones = tuple(replace(d, type=name) if k in chosen else d for k, d in enumerate(scene.fleet.drones))
+        self.document.edit(replace(scene, fleet=replace(scene.fleet, drones=drones)),
+                           f"{len(chosen)} drone(s) to type {name}")
 
     def _apply_filter(self, text: str) -> None:
         needle = text.strip().casefold()

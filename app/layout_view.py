@@ -40,6 +40,8 @@ from .document import Document
 DRAG_MERGE_BASE = 1000
 #: A click within this many pixels of a point picks the point.
 PICK_PIXELS = 8.0
+#: Points drawn within this many pixels of the nearest one count as stacked on it (in height, from above).
+STACKED_PIXELS = 2.0
 #: Markers are the clearance's width at the current zoom, but never smaller or larger than this (px).
 MARKER_PIXELS = (5.0, 40.0)
 
@@ -180,11 +182,11 @@ class ProjectionPlot(pg.PlotWidget):
             return None
         px, py = self.box.viewPixelSize()
         d = np.hypot((self.points[:, self.axes[0]] - x) / px, (self.points[:, self.axes[1]] - y) / py)
-        near = np.flatnonzero(d <= PICK_PIXELS)
-        if not len(near):
+        if d.min() > PICK_PIXELS:
             return None
+        stacked = np.flatnonzero(d <= d.min() + STACKED_PIXELS)  # drawn on top of one another
         depth = 3 - sum(self.axes)  # the axis this view looks along
-        return int(near[np.lexsort((d[near], np.abs(self.points[near, depth] - self.plane)))[0]])
+        return int(stacked[np.argmin(np.abs(self.points[stacked, depth] - self.plane))])
 
     def show_hover(self, k: int | None, text: str) -> None:
         """Write ``text`` beside point ``k`` (hidden for None)."""

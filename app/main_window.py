@@ -38,6 +38,7 @@ from .motion_plots import MotionPlots
 from .plan_runner import PlanRunner
 from .plan_summary_view import PlanSummaryView
 from .planner_panel import PlannerPanel
+from .site_panel import SitePanel
 from .site_view import SiteView
 from .time_bar import TimeBar
 from .timeline_panel import TimelinePanel
@@ -75,8 +76,9 @@ class MainWindow(QMainWindow):
         self.summary = PlanSummaryView(document)
         left = QTabWidget()
         self.drones = DroneList(document)
-        for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.fleet, "Fleet"),
-                             (self.drones, "Drones"), (self.planner, "Planner")):
+        self.site_panel = SitePanel(document)
+        for widget, name in ((self.formations, "Formations"), (self.timeline, "Timeline"), (self.site_panel, "Site"),
+                             (self.fleet, "Fleet"), (self.drones, "Drones"), (self.planner, "Planner")):
             left.addTab(widget, name)
         self._dock(left, "Scene", Qt.DockWidgetArea.LeftDockWidgetArea)
         bottom = QTabWidget()

@@ -39,17 +39,21 @@ class MotionPlots(QWidget):
         super().__init__(parent)
         self.document = document
         self.buttons = QButtonGroup(self)
-        bar = QHBoxLayout()
+        self.chooser = QWidget()  # a column beside the plots: the dock's height goes to the plots
+        bar = QVBoxLayout(self.chooser)
+        bar.setContentsMargins(0, 0, 0, 0)
         for k, (text, _, _, tip) in enumerate(QUANTITIES):
             button = QPushButton(text, checkable=True, checked=k == 0, toolTip=tip)
             self.buttons.addButton(button, k)
             bar.addWidget(button)
-        self.legend = QLabel(textFormat=Qt.TextFormat.RichText, wordWrap=True)
+        self.legend = QLabel(textFormat=Qt.TextFormat.RichText, wordWrap=True,
+                             alignment=Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+        self.legend.setFixedWidth(150)
         bar.addWidget(self.legend, 1)
         self.layout_widget = pg.GraphicsLayoutWidget()
         self.motion = self.layout_widget.addPlot(row=0, col=0)
         self.separation = self.layout_widget.addPlot(row=0, col=1)
-        self.separation.setTitle("smallest separation ratio (1 = clearance)", size="10pt")
+        self.separation.setLabel("left", "smallest separation ratio")
         self.layout_widget.ci.layout.setColumnStretchFactor(0, 3)
         self.layout_widget.ci.layout.setColumnStretchFactor(1, 2)
         self.plots = [self.motion, self.separation]
@@ -66,10 +70,11 @@ class MotionPlots(QWidget):
         self.placeholder = QLabel("No plan yet. Press Plan (F5) to see each drone's speed, acceleration, jerk "
                                   "and snap against its limits, and the fleet's smallest separation over time.",
                                   wordWrap=True, alignment=Qt.AlignmentFlag.AlignCenter)
-        column = QVBoxLayout(self)
-        column.addLayout(bar)
-        column.addWidget(self.placeholder, 1)
-        column.addWidget(self.layout_widget, 1)
+        row = QHBoxLayout(self)
+        row.setContentsMargins(4, 4, 4, 4)
+        row.addWidget(self.chooser)
+        row.addWidget(self.placeholder, 1)
+        row.addWidget(self.layout_widget, 1)
         self.buttons.idClicked.connect(lambda _k: self.refresh())
         document.plan_changed.connect(self.refresh)
         document.selection_changed.connect(self.refresh)
@@ -103,7 +108,7 @@ class MotionPlots(QWidget):
         plan = self.document.plan
         self.placeholder.setVisible(plan is None)
         self.layout_widget.setVisible(plan is not None)
-        self.legend.setVisible(plan is not None)
+        self.chooser.setVisible(plan is not None)
         if plan is None:
             return
         look = theme.current()
@@ -147,8 +152,8 @@ class MotionPlots(QWidget):
             r, g, b = (int(round(255 * c)) for c in colours[d][:3])
             parts.append(f'<span style="color: rgb({r},{g},{b})">■</span>&nbsp;{html.escape(ids[d])}')
         more = f" and {len(drones) - LEGEND_NAMES} more" if len(drones) > LEGEND_NAMES else ""
-        which = "selected" if self.document.selected else "first drones (select drones to plot them)"
-        return f"{which}: " + " &nbsp; ".join(parts) + more
+        which = "selected" if self.document.selected else "first drones (select drones to plot others)"
+        return f"{which}:<br>" + "<br>".join(parts) + more
 
     def move_cursor(self, t: float) -> None:
         for cursor in self.cursors:

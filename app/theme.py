@@ -68,10 +68,10 @@ LIGHT = Theme(
     name="light", window="#eef0f3", panel="#ffffff", text="#1b2027", muted_text="#5c6670", accent="#1f7f86",
     accent_text="#ffffff",
     canvas=(0.985, 0.985, 0.98, 1.0), canvas_text=(0.18, 0.21, 0.25, 1.0), grid=(0.30, 0.34, 0.40, 0.25),
-    obstacle=(0.78, 0.76, 0.72, 1.0), obstacle_edge=(0.25, 0.26, 0.28, 0.6), volume=(0.10, 0.40, 0.78, 0.7),
+    obstacle=(0.93, 0.91, 0.87, 1.0), obstacle_edge=(0.25, 0.26, 0.28, 0.6), volume=(0.10, 0.40, 0.78, 0.7),
     keep_out=(0.90, 0.38, 0.15, 0.35), formation=(0.30, 0.33, 0.38, 0.9), selected_outline=(0.05, 0.05, 0.05, 1.0),
     too_close=(0.85, 0.10, 0.10, 1.0), ellipsoid=(0.95, 0.65, 0.0, 0.30), limit=(0.80, 0.15, 0.15, 1.0),
-    cursor=(0.10, 0.12, 0.15, 1.0), dimmed=(0.55, 0.57, 0.60, 0.30), hue_saturation=0.80, hue_value=0.72)
+    cursor=(0.10, 0.12, 0.15, 1.0), dimmed=(0.55, 0.57, 0.60, 0.30), hue_saturation=0.80, hue_value=0.58)
 
 THEMES = {t.name: t for t in (LIGHT, DARK)}
 _current = [DARK]

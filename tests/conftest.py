@@ -1,15 +1,18 @@
-"""Shared builders for small scenes in tests."""
+"""Shared builders for small scenes in tests, and the designer's fixtures (documents and windows on
+sample scenes, clicks in the layout, planning in a window)."""
 
 from __future__ import annotations
 
 import os
+from pathlib import Path
 
 import numpy as np
 import pytest
+from PySide6.QtCore import QPointF, QSettings, Qt
 
-from core.scene import scene_from_dict
+from core.scene import load_scene, scene_from_dict
 
-ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[1]
 
 # Qt: a real X server gives OpenGL. pytest-xvfb starts a virtual one when Xvfb is installed (as
 # .ci/run installs it); without an X server, widgets still run on the offscreen platform and the
@@ -28,6 +31,7 @@ def pytest_configure(config):
 
     os.environ.setdefault("QT_QPA_PLATFORM", "xcb" if os.environ.get("DISPLAY") else "offscreen")
     HAS_OPENGL = os.environ["QT_QPA_PLATFORM"] == "xcb"
+    config.addinivalue_line("markers", "needs_opengl: needs an X server with OpenGL (the 3D view)")
     prepare_qt()
 
 
@@ -63,3 +67,111 @@ def make_scene():
 def _private_roadmap_cache(tmp_path_factory, monkeypatch):
     """Every test gets its own roadmap cache folder (never the user's)."""
     monkeypatch.setenv("SKYLOOM_CACHE_DIR", str(tmp_path_factory.mktemp("cache")))
+
+
+# --- the designer (pytest-qt) ------------------------------------------------------------
+
+SAMPLES = ROOT / "sample_scenes"
+#: Tests that need OpenGL (the 3D view): skipped with the reason where there is no X server
+#: (decided in :func:`pytest_collection_modifyitems`, after pytest_configure has looked).
+needs_opengl = pytest.mark.needs_opengl
+NO_OPENGL = ("needs an X server with OpenGL: install Xvfb and Mesa (see .ci/run); pytest-xvfb then starts one")
+
+
+def pytest_collection_modifyitems(config, items):
+    if HAS_OPENGL:
+        return
+    skip = pytest.mark.skip(reason=NO_OPENGL)
+    for item in items:
+        if item.get_closest_marker("needs_opengl"):
+            item.add_marker(skip)
+
+
+@pytest.fixture(autouse=True)
+def unsaved_prompt(monkeypatch):
+    """Answers the designer's unsaved-changes question (Discard unless a test sets ``answer``) and
+    records the questions: a real modal box would wait for a click forever."""
+    from types import SimpleNamespace
+
+    from PySide6.QtWidgets import QMessageBox
+    asked = SimpleNamespace(questions=[], answer=QMessageBox.StandardButton.Discard)
+
+    def question(parent, title, text, buttons, default):
+        asked.questions.append(text)
+        return asked.answer
+
+    monkeypatch.setattr(QMessageBox, "question", staticmethod(question))
+    return asked
+
+
+@pytest.fixture
+def settings(tmp_path):
+    return QSettings(str(tmp_path / "designer.ini"), QSettings.Format.IniFormat)
+
+
+@pytest.fixture
+def document(settings):
+    from app.document import Document
+    path = SAMPLES / "lab_eight.json"
+    doc = Document(load_scene(path), path, settings)
+    doc.workers = 1
+    return doc
+
+
+@pytest.fixture
+def layout(qtbot, document):
+    """The formation layout view, shown (clicks need an exposed widget)."""
+    from app.layout_view import LayoutView
+    view = LayoutView(document)
+    qtbot.addWidget(view)
+    view.resize(900, 700)
+    view.show()
+    qtbot.waitExposed(view)
+    return view
+
+
+def click_view(qtbot, plot, x, y, modifier=Qt.KeyboardModifier.NoModifier):
+    """Hover, then click at view coordinates (x, y) m (the first hover may still re-lay out the axes)."""
+    for _ in range(2):
+        pixel = plot.mapFromScene(plot.box.mapViewToScene(QPointF(x, y)))
+        qtbot.mouseMove(plot.viewport(), pixel)
+        qtbot.wait(30)
+    qtbot.mouseClick(plot.viewport(), Qt.MouseButton.LeftButton, modifier, pixel)
+
+
+@pytest.fixture
+def make_window(qtbot, settings):
+    """Designer windows on sample scenes (planning in this process: workers = 1)."""
+    from app.document import Document
+    from app.main_window import MainWindow
+    made = []
+
+    def make(name="bridge_inspection.json", folder=SAMPLES):
+        path = Path(folder) / name
+        doc = Document(load_scene(path), path, settings)
+        doc.workers = 1
+        w = MainWindow(doc)
+        qtbot.addWidget(w)
+        w.show()
+        qtbot.waitExposed(w)
+        made.append(w)
+        return w
+
+    yield make
+    for w in made:
+        if w.runner.running:
+            w.runner.cancel()
+            w.runner.wait()
+
+
+
+@pytest.fixture
+def window(make_window):
+    return make_window()
+
+
+def plan_in_window(qtbot, window, timeout=120_000):
+    window.start_plan()
+    qtbot.waitUntil(lambda: not window.runner.running, timeout=timeout)
+
+

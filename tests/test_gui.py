@@ -7,68 +7,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from PySide6.QtCore import QPointF, QSettings, Qt
+from PySide6.QtCore import QPointF, Qt
 from scipy.spatial import cKDTree
 
-from conftest import HAS_OPENGL, ROOT
+from conftest import SAMPLES, click_view, needs_opengl, plan_in_window
 from core.errors import SkyloomError
 from core.scene import load_scene
-
-SAMPLES = ROOT / "sample_scenes"
-needs_opengl = pytest.mark.skipif(not HAS_OPENGL, reason="needs an X server with OpenGL: install Xvfb and Mesa "
-                                  "(see .ci/run); pytest-xvfb then starts one")
-
-
-@pytest.fixture(autouse=True)
-def unsaved_prompt(monkeypatch):
-    """Answers the designer's unsaved-changes question (Discard unless a test sets ``answer``) and
-    records the questions: a real modal box would wait for a click forever."""
-    from types import SimpleNamespace
-
-    from PySide6.QtWidgets import QMessageBox
-    asked = SimpleNamespace(questions=[], answer=QMessageBox.StandardButton.Discard)
-
-    def question(parent, title, text, buttons, default):
-        asked.questions.append(text)
-        return asked.answer
-
-    monkeypatch.setattr(QMessageBox, "question", staticmethod(question))
-    return asked
-
-
-@pytest.fixture
-def settings(tmp_path):
-    return QSettings(str(tmp_path / "designer.ini"), QSettings.Format.IniFormat)
-
-
-@pytest.fixture
-def document(settings):
-    from app.document import Document
-    path = SAMPLES / "lab_eight.json"
-    doc = Document(load_scene(path), path, settings)
-    doc.workers = 1
-    return doc
-
-
-def _click_view(qtbot, plot, x, y, modifier=Qt.KeyboardModifier.NoModifier):
-    """Hover, then click at view coordinates (x, y) m (the first hover may still re-lay out the axes)."""
-    for _ in range(2):
-        pixel = plot.mapFromScene(plot.box.mapViewToScene(QPointF(x, y)))
-        qtbot.mouseMove(plot.viewport(), pixel)
-        qtbot.wait(30)
-    qtbot.mouseClick(plot.viewport(), Qt.MouseButton.LeftButton, modifier, pixel)
-
-
-@pytest.fixture
-def layout(qtbot, document):
-    """The formation layout view, shown (clicks need an exposed widget)."""
-    from app.layout_view import LayoutView
-    view = LayoutView(document)
-    qtbot.addWidget(view)
-    view.resize(900, 700)
-    view.show()
-    qtbot.waitExposed(view)
-    return view
 
 
 def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, document, layout):
@@ -76,7 +20,7 @@ def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, doc
     view.altitude.setValue(3.0)
     view.grid.setValue(0.5)
     before = document.formation(document.active_formation).positions.copy()
-    _click_view(qtbot, view.top, 3.1, -2.2)
+    click_view(qtbot, view.top, 3.1, -2.2)
     after = document.formation(document.active_formation).positions
     assert len(after) == len(before) + 1
     assert np.allclose(after[-1], [3.0, -2.0, 3.0])  # snapped to the 0.5 m grid, at the altitude
@@ -89,7 +33,7 @@ def test_click_in_the_layout_adds_a_snapped_point_and_undo_removes_it(qtbot, doc
 def test_selecting_a_point_and_pressing_delete_removes_it(qtbot, document, layout):
     view = layout
     points = document.formation(document.active_formation).positions
-    _click_view(qtbot, view.top, *points[2, :2])
+    click_view(qtbot, view.top, *points[2, :2])
     assert view.selected == {2}
     qtbot.keyClick(view, Qt.Key.Key_Delete)
     remaining = document.formation(document.active_formation).positions
@@ -221,46 +165,10 @@ def test_a_malformed_scene_is_reported_and_the_open_one_kept(qtbot, document, tm
 
 # --- the whole window (OpenGL) -------------------------------------------------------------
 
-@pytest.fixture
-def make_window(qtbot, settings):
-    """Designer windows on sample scenes (planning in this process: workers = 1)."""
-    from app.document import Document
-    from app.main_window import MainWindow
-    made = []
-
-    def make(name="bridge_inspection.json", folder=SAMPLES):
-        path = Path(folder) / name
-        doc = Document(load_scene(path), path, settings)
-        doc.workers = 1
-        w = MainWindow(doc)
-        qtbot.addWidget(w)
-        w.show()
-        qtbot.waitExposed(w)
-        made.append(w)
-        return w
-
-    yield make
-    for w in made:
-        if w.runner.running:
-            w.runner.cancel()
-            w.runner.wait()
-
-
-
-@pytest.fixture
-def window(make_window):
-    return make_window()
-
-
-def _plan(qtbot, window, timeout=120_000):
-    window.start_plan()
-    qtbot.waitUntil(lambda: not window.runner.running, timeout=timeout)
-
-
 @needs_opengl
 def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, make_window):
     window = make_window("lab_eight.json")
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     doc = window.document
     assert doc.plan is not None and doc.plan.verified, getattr(window, "last_error", "")
     assert window.plots.curve_count() >= 5 and "Verification PASSED" in window.summary.details.toPlainText()
@@ -282,7 +190,7 @@ def test_planning_fills_plots_and_findings_and_a_click_moves_the_cursor(qtbot, m
 
 @needs_opengl
 def test_screenshot_of_a_planned_scene_is_not_blank(qtbot, window, tmp_path):
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     window.document.set_time(14.0)
     window.document.select((0, 1))
     qtbot.wait(200)
@@ -293,7 +201,8 @@ def test_screenshot_of_a_planned_scene_is_not_blank(qtbot, window, tmp_path):
     frame = window.site.grabFramebuffer()
     pixels = np.frombuffer(frame.constBits(), dtype=np.uint8).reshape(frame.height(), frame.bytesPerLine())
     rgb = pixels[:, : 4 * frame.width()].reshape(frame.height(), frame.width(), 4)[..., :3]
-    background = np.array([int(255 * c) for c in (0.09, 0.10, 0.12)])
+    from app import theme
+    background = np.array(theme.current().rgb255(theme.current().canvas))
     drawn = np.abs(rgb.astype(int) - background[::-1]).sum(axis=2) > 30  # BGRA in memory
     assert drawn.mean() > 0.03  # mesh, curves and volume cover a good part of the view
     assert len(np.unique(rgb.reshape(-1, 3), axis=0)) > 50
@@ -301,7 +210,7 @@ def test_screenshot_of_a_planned_scene_is_not_blank(qtbot, window, tmp_path):
 
 @needs_opengl
 def test_cancel_stops_a_long_plan_and_keeps_the_old_one(qtbot, window):
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     old = window.document.plan
     from dataclasses import replace
     scene = window.document.scene
@@ -322,7 +231,7 @@ def test_cancel_stops_a_long_plan_and_keeps_the_old_one(qtbot, window):
 def test_export_shows_the_caution_and_writes_through_the_core_exporter(qtbot, window, tmp_path):
     from app.export_dialog import ExportDialog
     from core import SAFETY_CAUTION
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     dialog = ExportDialog(window.document.plan, tmp_path / "out", [window.document.path])
     qtbot.addWidget(dialog)
     assert SAFETY_CAUTION in dialog.caution.text() and "PASSED" in dialog.status.text()
@@ -354,7 +263,7 @@ def test_export_proposes_a_fresh_folder_beside_the_scene(qtbot, window, monkeypa
             return False
 
     monkeypatch.setattr(main_window, "ExportDialog", Recorder)
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     assert window.document.plan is not None
     scene_path = window.document.path
     window.export()
@@ -381,7 +290,7 @@ def test_dragging_a_point_moves_it_as_one_undo_step(qtbot, document, layout):
     f = document.formation(document.active_formation)
     start, target = f.positions[3], f.positions[3] + [1.0, 1.8, 0.0]  # ends 0.2 m from a grid line
     plot, vp = layout.top, layout.top.viewport()
-    _click_view(qtbot, plot, *start[:2])  # selects it (and settles the axes)
+    click_view(qtbot, plot, *start[:2])  # selects it (and settles the axes)
     before = document.formation(f.name).positions.copy()
     steps_before = document.undo_stack.count()
 
@@ -405,7 +314,7 @@ def test_dragging_a_point_moves_it_as_one_undo_step(qtbot, document, layout):
 @needs_opengl
 def test_play_advances_the_time_cursor(qtbot, make_window):
     window = make_window("lab_eight.json")
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     window.time_bar.speed.setCurrentText("10×")
     qtbot.mouseClick(window.time_bar.play_button, Qt.MouseButton.LeftButton)
     qtbot.waitUntil(lambda: window.document.time > 1.0, timeout=5000)
@@ -465,7 +374,7 @@ def test_an_edit_makes_the_plan_stale_everywhere_and_export_refuses_it(qtbot, ma
 
     monkeypatch.setattr(main_window, "ExportDialog", Recorder)
     window = make_window("lab_eight.json")
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     doc = window.document
     assert doc.plan_is_current and "out of date" not in window.windowTitle()
     scene = doc.scene
@@ -519,7 +428,7 @@ def test_unsaved_edits_are_asked_about_before_new_open_and_close(qtbot, make_win
 def test_the_new_scene_plans_and_verifies_in_the_designer(qtbot, make_window):
     window = make_window("lab_eight.json")
     window.new_scene()
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     doc = window.document
     assert doc.plan is not None and doc.plan.verified and doc.plan_is_current, getattr(window, "last_error", "")
     assert window.windowTitle() == "Skyloom designer — Untitled scene"
@@ -635,7 +544,7 @@ def test_clicking_a_drone_in_3d_selects_it_and_ctrl_click_adds_another(qtbot, ma
     does); the drone list follows, and a click on empty space clears the selection."""
     from app.site_view import PICK_PIXELS
     window = make_window("bridge_inspection.json")  # its launch line: drones 3 m apart
-    _plan(qtbot, window)
+    plan_in_window(qtbot, window)
     doc, view = window.document, window.site
     doc.set_time(0.5)
     window.centre.setCurrentWidget(view)

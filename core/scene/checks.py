@@ -11,7 +11,7 @@ import trimesh
 from .. import limits
 from ..errors import SceneError
 from .meshes import SiteMesh, load_site_meshes
-from .model import DroneType, Scene
+from .model import Box, DroneType, Scene
 from .occupants import crowded_pairs, possible_shapes
 
 MAX_LISTED = 5  # problems listed per kind before "and N more"
@@ -128,6 +128,14 @@ def _check_names(scene: Scene, source: str) -> list[tuple[str, str]]:
     return out
 
 
+def box_problem(box: Box) -> str | None:
+    """Why ``box`` (flight volume or keep-out box) is not a box, or None. The designer's site
+    editor refuses such an edit with this text as it is typed."""
+    if np.any(box.bounds[1] <= box.bounds[0]):
+        return f"upper {box.upper} must exceed lower {box.lower} on every axis"
+    return None
+
+
 def drone_type_problem(t: DroneType) -> str | None:
     """Why drone type ``t``'s radii cannot be flown (the field named is ``radius_z``), or None.
     The designer's fleet table refuses such an edit with this text as it is typed."""
@@ -186,9 +194,7 @@ def _check_site(scene: Scene, source: str) -> list[tuple[str, str]]:
     out = []
     boxes = [("site.flight_volume", scene.site.flight_volume)]
     boxes += [(f"site.keep_out[{k}]", b) for k, b in enumerate(scene.site.keep_out)]
-    for where, box in boxes:
-        if np.any(box.bounds[1] <= box.bounds[0]):
-            out.append((f"{source}: {where}", f"upper {box.upper} must exceed lower {box.lower} on every axis"))
+    out += [(f"{source}: {where}", problem) for where, box in boxes if (problem := box_problem(box)) is not None]
     extent = np.ptp(scene.site.flight_volume.bounds, axis=0)
     if np.any(extent > limits.MAX_SITE_EXTENT_M):
         out.append((f"{source}: site.flight_volume", f"spans {format_xyz(extent)} m; each side may be at most "
