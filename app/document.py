@@ -16,6 +16,7 @@ from core.inspection import Approach, closest_approaches
 from core.pipeline import PlanResult
 from core.scene import Formation, Scene, load_scene, save_scene
 from core.scene.checks import check_scene
+from core.scene.io import relocated
 from core.scene.meshes import SiteMesh, load_site_meshes
 from core.scene.starter import starter_scene
 
@@ -81,10 +82,16 @@ class Document(QObject):
         return self.path.parent if self.path else Path(".")
 
     def open(self, path: Path) -> None:
-        """Load ``path`` (raises :class:`SkyloomError` with the reason; the open scene stays)."""
-        scene = load_scene(path)
+        """Load ``path`` (raises :class:`SkyloomError` with the reason when the file cannot be read
+        or its structure is wrong; the open scene stays). A scene saved while still being edited
+        (points in an obstacle, counts that do not match) opens, and its problems are listed."""
+        scene = load_scene(path, check=False)
         self._reset(scene, Path(path))
         self._remember(self.path)
+        problems = self.problems()
+        if problems:
+            self.message.emit("\n".join([f"{self.source_name} opened with {len(problems)} problem(s) to fix before "
+                                          "planning:", *(f"{where}: {why}" for where, why in problems)]))
 
     def new(self) -> None:
         """Start a new scene without a file (:func:`core.scene.starter.starter_scene`)."""
@@ -112,16 +119,32 @@ class Document(QObject):
 
     def save(self, path: Path | None = None) -> None:
         """Write the scene (atomically) to ``path`` or its own file. Saved into another folder,
-        formations read from CSV files are written inline (their files are not beside it)."""
+        the files it names keep working (:func:`core.scene.io.relocated`: CSV formations inline,
+        mesh paths from the new folder), in the file and in the open scene, its undo history and
+        its plan alike, so a later save or undo names them right too."""
         target = Path(path or self.path)
-        scene = self.scene
-        if target.resolve().parent != self.base_dir.resolve():
-            scene = replace(scene, formations=tuple(replace(f, csv=None) for f in scene.formations))
+        old_dir, new_dir = self.base_dir, target.parent
+        scene = relocated(self.scene, old_dir, new_dir)
         save_scene(scene, target)
+        if scene != self.scene:
+            self._relocate(old_dir, new_dir)
         self.path = target
         self.undo_stack.setClean()
         self._remember(target)
         self.path_changed.emit()
+
+    def _relocate(self, old_dir: Path, new_dir: Path) -> None:
+        """Re-point every scene the document holds from ``old_dir`` to ``new_dir`` (no undo step:
+        the scene means the same)."""
+        for k in range(self.undo_stack.count()):
+            step = self.undo_stack.command(k)
+            if isinstance(step, SceneEdit):
+                step.before, step.after = (relocated(x, old_dir, new_dir) for x in (step.before, step.after))
+        if self.plan is not None:
+            self.plan = replace(self.plan, scene=relocated(self.plan.scene, old_dir, new_dir))
+        self._mesh_site = None  # same meshes, other paths: read again under the new folder
+        self.scene = relocated(self.scene, old_dir, new_dir)
+        self.scene_changed.emit()
 
     def recent_files(self) -> list[str]:
         value = self.settings.value(RECENT_KEY, [])

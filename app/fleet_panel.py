@@ -128,8 +128,8 @@ class FleetPanel(QWidget):
                                        "before planning.")
 
     def _selected_type_row(self) -> int:
-        rows = sorted({i.row() for i in self.table.selectedIndexes()})
-        return rows[0] if rows else 0
+        """The current row (the first type when there is none)."""
+        return max(self.table.currentRow(), 0)
 
     def add_type(self) -> None:
         scene = self.document.scene

@@ -106,8 +106,8 @@ class RecordTable(QTableWidget):
         self._commit(records, f"{self.what} {getattr(edited, 'name', r)}: {column.label} {item.text()}")
 
     def selected_row(self) -> int | None:
-        rows = sorted({i.row() for i in self.selectedIndexes()})
-        return rows[0] if rows else None
+        """The current row, or None."""
+        return self.currentRow() if self.currentRow() >= 0 else None
 
 
 class SitePanel(QScrollArea):

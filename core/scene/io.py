@@ -6,7 +6,9 @@ import csv
 import io
 import json
 import math
+import os
 import re
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -24,21 +26,24 @@ _ADAPTER = TypeAdapter(Scene)
 MAX_LISTED_PROBLEMS = 20
 
 
-def load_scene(path: str | Path) -> Scene:
-    """Read, validate and check a scene file; raise :class:`SceneError` naming file, field, reason."""
+def load_scene(path: str | Path, check: bool = True) -> Scene:
+    """Read, validate and check a scene file; raise :class:`SceneError` naming file, field, reason.
+    ``check=False`` skips the whole-scene checks (:func:`~.checks.check_scene`: points in
+    obstacles, counts, radii) but not the file's structure and types: the designer opens a scene
+    saved while still being edited, and lists its problems instead of refusing it."""
     path = Path(path)
     try:
         data = load_json_file(path)
     except UnreadableFile as exc:
         raise SceneError([(path.name, str(exc))]) from None
-    return scene_from_dict(data, source=path.name, base_dir=path.parent)
+    return scene_from_dict(data, source=path.name, base_dir=path.parent, check=check)
 
 
 #: Top-level field an export writes into its ``scene.json`` (status and caution); ignored on load.
 EXPORT_STAMP_FIELD = "export_status"
 
 
-def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = None) -> Scene:
+def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = None, check: bool = True) -> Scene:
     """Build a checked :class:`Scene` from parsed JSON; CSV formations are read from ``base_dir``.
 
     A top-level :data:`EXPORT_STAMP_FIELD` object (written by exports) is ignored.
@@ -53,10 +58,30 @@ def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = 
         scene = _ADAPTER.validate_python(data)
     except ValidationError as exc:
         raise SceneError(_validation_problems(exc, source)) from None
-    problems = check_scene(scene, source, base_dir)
+    problems = check_scene(scene, source, base_dir) if check else []
     if problems:
         raise SceneError(problems)
     return scene
+
+
+def relocated(scene: Scene, old_dir: Path, new_dir: Path) -> Scene:
+    """``scene`` as it must be written into ``new_dir`` when it was read from ``old_dir``: files
+    it names keep working. CSV formations are written inline (their points are already in the
+    scene), mesh paths are made relative to ``new_dir`` (absolute where no relative path exists,
+    e.g. another drive). Unchanged when the folders are the same."""
+    old_dir, new_dir = Path(old_dir).resolve(), Path(new_dir).resolve()
+    if old_dir == new_dir:
+        return scene
+    formations = tuple(replace(f, csv=None) for f in scene.formations)
+    meshes = tuple(replace(m, file=_path_from(new_dir, old_dir / m.file)) for m in scene.site.meshes)
+    return replace(scene, formations=formations, site=replace(scene.site, meshes=meshes))
+
+
+def _path_from(folder: Path, target: Path) -> str:
+    try:
+        return Path(os.path.relpath(target.resolve(), folder)).as_posix()
+    except ValueError:  # another drive
+        return str(target.resolve())
 
 
 def scene_to_dict(scene: Scene, inline_csv: bool = False) -> dict:
