@@ -94,12 +94,14 @@ class DroneList(QWidget):
 
     def _apply_filter(self, text: str) -> None:
         needle = text.strip().casefold()
-        shown = 0
         for r in range(self.table.rowCount()):
             hit = not needle or any(needle in self.table.item(r, c).text().casefold() for c in range(len(COLUMNS)))
             self.table.setRowHidden(r, not hit)
-            shown += hit
+        self._update_count()
+
+    def _update_count(self) -> None:
         total = self.table.rowCount()
+        shown = sum(not self.table.isRowHidden(r) for r in range(total))
         self.count.setText(f"{shown} of {total} drones shown, {len(self.document.selected)} selected")
 
     def _selection_edited(self) -> None:
@@ -119,4 +121,4 @@ class DroneList(QWidget):
         self.table.blockSignals(False)
         if self.document.selected and self.document.selected[0] < self.table.rowCount():
             self.table.scrollToItem(self.table.item(self.document.selected[0], 0))
-        self._apply_filter(self.filter.text())
+        self._update_count()

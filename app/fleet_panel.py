@@ -35,14 +35,16 @@ MAY_BE_ZERO = {"tracking_margin", "downwash_shift"}
 
 
 class FleetPanel(QWidget):
-    """One row per drone type; the drone count per type is shown beside it."""
+    """One column per drone type, one row per field (all fields visible in a narrow panel); the
+    drone count per type is in the summary line."""
 
     def __init__(self, document: Document, parent=None):
         super().__init__(parent)
         self.document = document
-        self.table = QTableWidget(0, len(FIELDS))
-        self.table.setHorizontalHeaderLabels([label for _, label, _ in FIELDS])
-        self.summary = QLabel(wordWrap=True)
+        self.table = QTableWidget(len(FIELDS), 0)
+        self.table.setVerticalHeaderLabels([label for _, label, _ in FIELDS])
+        self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 10)  # all rows in view
+        self.summary = QLabel(wordWrap=True, toolTip="set a drone's type in the Drones tab")
         self.size = QSpinBox(minimum=1, maximum=limits.MAX_DRONES, keyboardTracking=False,
                              toolTip="Drones in the fleet: more adds drones with the next ids, fewer removes the "
                                      "last ones (formations then need as many points: see the layout)")
@@ -52,7 +54,7 @@ class FleetPanel(QWidget):
             size_row.addWidget(w)
         size_row.addStretch(1)
         add_type, remove_type = QPushButton("Add type"), QPushButton("Remove type")
-        add_type.setToolTip("a new type, a copy of the selected row's (then edit its values)")
+        add_type.setToolTip("a new type, a copy of the selected column's (then edit its values)")
         remove_type.setToolTip("remove the selected type (only when no drone is of it)")
         type_row = QHBoxLayout()
         for w in (add_type, remove_type):
@@ -72,8 +74,7 @@ class FleetPanel(QWidget):
     def refresh(self) -> None:
         fleet = self.document.scene.fleet
         counts = {t.name: sum(d.type == t.name for d in fleet.drones) for t in fleet.types}
-        self.summary.setText(f"{len(fleet.drones)} drones: " + ", ".join(f"{n} × {k}" for k, n in counts.items())
-                             + ". Set a drone's type in the Drones tab.")
+        self.summary.setText(f"{len(fleet.drones)} drones: " + ", ".join(f"{n} × {k}" for k, n in counts.items()))
         self.size.blockSignals(True)
         self.size.setValue(len(fleet.drones))
         self.size.blockSignals(False)
@@ -81,31 +82,31 @@ class FleetPanel(QWidget):
         self.new_type.clear()
         self.new_type.addItems([t.name for t in fleet.types])
         self.new_type.setCurrentText(chosen if chosen in counts else fleet.drones[-1].type)
-        self.table.setRowCount(len(fleet.types))
-        self.table.setVerticalHeaderLabels([t.name for t in fleet.types])
-        for row, t in enumerate(fleet.types):
-            for col, (name, _, suffix) in enumerate(FIELDS):
+        self.table.setColumnCount(len(fleet.types))
+        self.table.setHorizontalHeaderLabels([t.name for t in fleet.types])
+        for col, t in enumerate(fleet.types):
+            for row, (name, _, suffix) in enumerate(FIELDS):
                 spin = QDoubleSpinBox(minimum=0.0 if name in MAY_BE_ZERO else 0.01, maximum=1000.0, decimals=2,
                                       singleStep=0.05, suffix=suffix, value=getattr(t, name))
                 spin.editingFinished.connect(
-                    lambda row=row, name=name, spin=spin: self._commit(row, name, spin.value()))
+                    lambda col=col, name=name, spin=spin: self._commit(col, name, spin.value()))
                 self.table.setCellWidget(row, col, spin)
         self.table.resizeColumnsToContents()
 
-    def _commit(self, row: int, name: str, value: float) -> None:
+    def _commit(self, column: int, name: str, value: float) -> None:
         scene = self.document.scene
         types = list(scene.fleet.types)
-        if getattr(types[row], name) == value:
+        if getattr(types[column], name) == value:
             return
-        edited = replace(types[row], **{name: value})
+        edited = replace(types[column], **{name: value})
         problem = drone_type_problem(edited)
         if problem is not None:  # refused as typed, not only when planning: the table shows the old value
             self.document.message.emit(f"{edited.name}: radius z {problem}; the edit was not applied")
             QTimer.singleShot(0, self.refresh)  # later: the spin box being edited is replaced
             return
-        types[row] = edited
+        types[column] = edited
         self.document.edit(replace(scene, fleet=replace(scene.fleet, types=tuple(types))),
-                           f"{types[row].name}: {name.replace('_', ' ')} {value:g}")
+                           f"{types[column].name}: {name.replace('_', ' ')} {value:g}")
 
     def resize_fleet(self, size: int) -> None:
         """Add drones of the chosen type with the next ids, or remove the last drones."""
@@ -127,20 +128,20 @@ class FleetPanel(QWidget):
                                        "another number of points: add or delete points in the formation layout "
                                        "before planning.")
 
-    def _selected_type_row(self) -> int:
-        """The current row (the first type when there is none)."""
-        return max(self.table.currentRow(), 0)
+    def _selected_type(self) -> int:
+        """The current column's type (the first type when there is none)."""
+        return max(self.table.currentColumn(), 0)
 
     def add_type(self) -> None:
         scene = self.document.scene
-        base = scene.fleet.types[self._selected_type_row()]
+        base = scene.fleet.types[self._selected_type()]
         name = fresh_name(f"{base.name}_copy", {t.name for t in scene.fleet.types})
         types = scene.fleet.types + (replace(base, name=name),)
         self.document.edit(replace(scene, fleet=replace(scene.fleet, types=types)), f"add drone type {name}")
 
     def remove_type(self) -> None:
         scene = self.document.scene
-        gone = scene.fleet.types[self._selected_type_row()]
+        gone = scene.fleet.types[self._selected_type()]
         users = sum(d.type == gone.name for d in scene.fleet.drones)
         if users or len(scene.fleet.types) == 1:
             reason = f"{users} drone(s) are of it; give them another type first (Drones tab)" if users else \

@@ -127,10 +127,13 @@ class ProjectionPlot(pg.PlotWidget):
         #: Where obstacles and keep-out boxes meet the plane points are added in (altitude / side-view y).
         self.obstacles = pg.PlotDataItem(connect="pairs")
         self.scatter = _PassiveScatter(size=10, pxMode=True)
+        #: The selected points' outlines, drawn over the points (a selection redraws only these).
+        self.outlines = _PassiveScatter(size=10, pxMode=True, brush=None)
+        self.selected: list[int] = []
         self.hover_label = pg.TextItem(anchor=(0, 1))
         self.hover_label.setZValue(10)
         self.hover_label.hide()
-        for item in (self.outline, self.obstacles, self.scatter, self.hover_label):
+        for item in (self.outline, self.obstacles, self.scatter, self.outlines, self.hover_label):
             self.addItem(item)
         self.box.sigRangeChanged.connect(lambda *_args: self.scale_markers())
 
@@ -156,15 +159,25 @@ class ProjectionPlot(pg.PlotWidget):
         (x0, y0), (x1, y1) = bounds[:, list(self.axes)]
         self.setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0.05)
 
-    def show_points(self, points: np.ndarray, colours: np.ndarray, selected: set[int], widths: np.ndarray) -> None:
-        """``points`` ``(n, 3)`` m filled with ``colours`` ``(n, 4)``, ``selected`` outlined, markers
-        ``widths`` ``(n,)`` m wide at the current zoom."""
+    def show_points(self, points: np.ndarray, colours: np.ndarray, widths: np.ndarray) -> None:
+        """``points`` ``(n, 3)`` m filled with ``colours`` ``(n, 4)``, markers ``widths`` ``(n,)`` m
+        wide at the current zoom (one brush per distinct colour: the plotting library renders a
+        symbol per distinct brush)."""
         look = theme.current()
         self.points, self.widths = points, widths
-        brushes = [pg.mkBrush(look.qcolor(tuple(c))) for c in colours]
-        outline = pg.mkPen(look.qcolor(look.selected_outline), width=2.5)
-        pens = [outline if k in selected else pg.mkPen(None) for k in range(len(points))]
-        self.scatter.setData(pos=points[:, list(self.axes)], brush=brushes, pen=pens, size=self.marker_pixels())
+        distinct, which = np.unique(np.asarray(colours), axis=0, return_inverse=True)
+        brushes = [pg.mkBrush(look.qcolor(tuple(c))) for c in distinct]
+        self.scatter.setData(pos=points[:, list(self.axes)], brush=[brushes[k] for k in np.ravel(which)],
+                             pen=None, size=self.marker_pixels())
+        self.show_selection(self.selected)
+
+    def show_selection(self, selected) -> None:
+        """Outline the points ``selected`` (indices)."""
+        look = theme.current()
+        self.selected = [k for k in sorted(selected) if k < len(self.points)]
+        pen = pg.mkPen(look.qcolor(look.selected_outline), width=2.5)
+        self.outlines.setData(pos=self.points[self.selected][:, list(self.axes)], pen=pen, brush=None,
+                              size=self.marker_pixels()[self.selected] + 4)
 
     def marker_pixels(self) -> np.ndarray:
         """``(n,)`` px: each point's clearance width at the current zoom, within :data:`MARKER_PIXELS`."""
@@ -173,7 +186,10 @@ class ProjectionPlot(pg.PlotWidget):
 
     def scale_markers(self) -> None:
         if len(self.points):
-            self.scatter.setSize(self.marker_pixels())
+            sizes = self.marker_pixels()
+            self.scatter.setSize(sizes)
+            if self.selected:
+                self.outlines.setSize(sizes[self.selected] + 4)
 
     def pick(self, x: float, y: float) -> int | None:
         """Index of the point within :data:`PICK_PIXELS` of view position (x, y), or None; of
@@ -336,7 +352,8 @@ class LayoutView(QWidget):
         colours, widths = self.point_colours(close), point_widths(scene.fleet.clearance, shapes)
         self.top.plane, self.side.plane = self.altitude.value(), self.section_y.value()
         for plot in (self.top, self.side):
-            plot.show_points(points, colours, self.selected, widths)
+            plot.selected = sorted(self.selected)
+            plot.show_points(points, colours, widths)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)
         self.refresh_sections()
         n_fleet = len(self.document.scene.fleet.drones)
@@ -369,7 +386,7 @@ class LayoutView(QWidget):
                 self.selected ^= {k}
             else:
                 self.selected = {k}
-            self.refresh()
+            self._show_selection()
             self._selection_to_document()
             return
         f = self.formation
@@ -402,13 +419,18 @@ class LayoutView(QWidget):
         wanted = {int(k) for k in np.flatnonzero(np.isin(on, self.document.selected))}
         if wanted != self.selected:
             self.selected = wanted
-            self.refresh()
+            self._show_selection()
+
+    def _show_selection(self) -> None:
+        for plot in (self.top, self.side):
+            plot.show_selection(self.selected)
 
     def _drag_start(self, plot: ProjectionPlot, x: float, y: float) -> None:
         self._drag_index = plot.pick(x, y)
         self._drag_serial += 1
         if self._drag_index is not None:
             self.selected = {self._drag_index}
+            self._show_selection()
 
     def _drag(self, plot: ProjectionPlot, x: float, y: float, finished: bool) -> None:
         if self._drag_index is None:

@@ -34,10 +34,14 @@ def sample_times(traj: FleetTrajectory, per_piece: int = 24) -> np.ndarray:
 def motion_curves(traj: FleetTrajectory, drones: np.ndarray, times: np.ndarray) -> dict[str, np.ndarray]:
     """Magnitudes ``(T, D)`` for drones ``drones`` ``(D,)`` at ``times``: horizontal and vertical
     speed (m/s), acceleration (m/s²), jerk (m/s³) and snap (m/s⁴)."""
+    drones, times = np.asarray(drones, dtype=int), np.asarray(times, dtype=float)
+    rows = (np.tile(drones, len(times)), np.repeat(times, len(drones)))  # only these drones: (T·D,) each
+    by_order: dict[int, np.ndarray] = {}
     out = {}
     for name, order, axes in MOTION_QUANTITIES:
-        values = traj.evaluate(times, order)[:, drones, axes]
-        out[name] = np.linalg.norm(values, axis=-1)
+        if order not in by_order:
+            by_order[order] = traj.evaluate_rows(*rows, order).reshape(len(times), len(drones), 3)
+        out[name] = np.linalg.norm(by_order[order][..., axes], axis=-1)
     return out
 
 

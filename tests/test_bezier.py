@@ -81,3 +81,21 @@ def test_split_into_equal_parts_reproduces_each_sub_interval():
     for m in range(5):
         sub = BPoly(parts[m][:, None, :], [0, 1])
         np.testing.assert_allclose(sub(u), whole((m + u) / 5), atol=1e-12)
+
+
+def test_motion_curves_of_chosen_drones_match_scipy_bpoly_derivatives():
+    """The designer's motion plots: magnitudes for a few drones out of many, against scipy's
+    BPoly derivatives of each axis (horizontal speed from x and y, vertical from z)."""
+    from core.inspection import motion_curves
+    rng = np.random.default_rng(4)
+    traj = _random_trajectory(rng, n_drones=9)
+    drones = np.array([7, 2, 5])
+    t = np.linspace(0.0, traj.duration, 97)
+    curves = motion_curves(traj, drones, t)
+    for k, d in enumerate(drones):
+        axis = [[_bpoly(traj, d, a)(t, nu=order) for a in range(3)] for order in range(5)]
+        np.testing.assert_allclose(curves["speed_xy"][:, k], np.hypot(axis[1][0], axis[1][1]), rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(curves["speed_z"][:, k], np.abs(axis[1][2]), rtol=1e-9, atol=1e-9)
+        for name, order in (("acceleration", 2), ("jerk", 3), ("snap", 4)):
+            ref = np.linalg.norm(np.array(axis[order]), axis=0)
+            np.testing.assert_allclose(curves[name][:, k], ref, rtol=1e-9, atol=1e-9 * (1 + ref.max()))

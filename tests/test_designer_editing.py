@@ -118,12 +118,12 @@ def test_fleet_size_types_and_assignment_of_types_are_undoable(qtbot, document, 
     drones.set_type_button.click()
     assert [d.type for d in document.scene.fleet.drones[n:]] == [types[-1].name] * 2
     assert drones.table.item(n, 1).text() == types[-1].name
-    fleet_panel.table.setCurrentCell(len(types) - 1, 0)
+    fleet_panel.table.setCurrentCell(0, len(types) - 1)
     fleet_panel.remove_type()  # two drones are of it: refused
     assert len(document.scene.fleet.types) == len(types) and "2 drone(s) are of it" in messages[-1]
     fleet_panel.size.setValue(n)
     assert document.scene.fleet.drones == before.fleet.drones
-    fleet_panel.table.setCurrentCell(len(types) - 1, 0)
+    fleet_panel.table.setCurrentCell(0, len(types) - 1)
     fleet_panel.remove_type()
     assert document.scene.fleet.types == before.fleet.types
     for _ in range(5):

@@ -92,7 +92,7 @@ def test_motion_plots_one_quantity_with_legend_in_the_3d_colours(qtbot, make_win
 
 @needs_opengl
 def test_plots_and_layout_are_legible_at_1280_by_720(qtbot, make_window):
-    window = make_window("bridge_inspection.json")
+    window = make_window("viaduct_survey.json")  # two drone types
     window.resize(1280, 720)
     plan_in_window(qtbot, window)
     qtbot.wait(100)
@@ -102,6 +102,11 @@ def test_plots_and_layout_are_legible_at_1280_by_720(qtbot, make_window):
     qtbot.wait(100)
     for plot in (window.layout_view.top, window.layout_view.side):
         assert plot.width() >= 250 and plot.height() >= 200, (plot.width(), plot.height())
+    left = window.fleet.parentWidget().parentWidget()
+    left.setCurrentWidget(window.fleet)
+    qtbot.wait(100)
+    table = window.fleet.table  # every field of every type in view, none behind a scroll bar
+    assert not table.horizontalScrollBar().isVisible() and not table.verticalScrollBar().isVisible()
 
 
 @needs_opengl

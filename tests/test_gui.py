@@ -122,18 +122,18 @@ def test_timeline_fleet_and_planner_edits_are_undoable_and_saved(qtbot, document
     hold.setValue(4.0)
     hold.editingFinished.emit()
     assert document.scene.timeline.transitions[0].hold == 4.0
-    radius = fleet.table.cellWidget(0, 1)
+    radius = fleet.table.cellWidget(1, 0)
     radius.setValue(0.42)
     radius.editingFinished.emit()
     assert document.scene.fleet.types[0].radius_z == pytest.approx(0.42)
     messages = []
     document.message.connect(messages.append)
     before = document.scene
-    radius = fleet.table.cellWidget(0, 1)
+    radius = fleet.table.cellWidget(1, 0)
     radius.setValue(0.05)  # below radius xy: refused as typed, the table shows the old value again
     radius.editingFinished.emit()
     assert document.scene is before and messages and "must exceed radius_xy" in messages[-1]
-    qtbot.waitUntil(lambda: fleet.table.cellWidget(0, 1).value() == pytest.approx(0.42))
+    qtbot.waitUntil(lambda: fleet.table.cellWidget(1, 0).value() == pytest.approx(0.42))
     planner.iterations.setValue(5)
     planner.iterations.editingFinished.emit()
     assert document.scene.planner.smoothing_iterations == 5
