@@ -6,11 +6,11 @@ selection), Delete removes the selected points. Every edit is one undo step.
 
 What is drawn: the flight volume, where obstacle meshes and keep-out boxes meet the working plane,
 the points in their group's colour (red: closer to another point than the clearance of the drones
-that can stand on them), markers as wide as the clearance at the current zoom (kept between
-:data:`MARKER_PIXELS`), and the id of the point under the mouse (its group, and which drone stands
-there when that is known). Selected points and selected drones are the same thing where the
-formation says which drone stands where: the start formation, and any formation the current plan
-flies to.
+that can stand on them; faded: away from the working plane, on another layer), markers as wide
+as the clearance at the current zoom (kept between :data:`MARKER_PIXELS`), and the id of the
+point under the mouse (its group, and which drone stands there when that is known). Selected
+points and selected drones are the same thing where the formation says which drone stands where:
+the start formation, and any formation the current plan flies to.
 """
 
 from __future__ import annotations
@@ -42,6 +42,8 @@ DRAG_MERGE_BASE = 1000
 PICK_PIXELS = 8.0
 #: Points drawn within this many pixels of the nearest one count as stacked on it (in height, from above).
 STACKED_PIXELS = 2.0
+#: Opacity kept by points away from the working plane (another layer, seen through).
+OFF_PLANE_ALPHA = 0.3
 #: Markers are the clearance's width at the current zoom, but never smaller or larger than this (px).
 MARKER_PIXELS = (5.0, 40.0)
 
@@ -57,11 +59,11 @@ def too_close(points: np.ndarray, clearance: ClearanceModel, shapes: np.ndarray 
     return mask
 
 
-def point_widths(clearance: ClearanceModel, shapes: np.ndarray) -> np.ndarray:
-    """``(n,)`` m: the horizontal clearance diameter of the widest drone that can stand on each
-    point (``shapes`` ``(n, K)`` from :func:`core.scene.occupants.possible_shapes`)."""
-    widths = 2.0 * clearance.kind_axes[:, 0]
-    return np.where(shapes, widths[None, :], 0.0).max(axis=1, initial=0.0)
+def occupant_reach(clearance: ClearanceModel, shapes: np.ndarray, axis: int) -> np.ndarray:
+    """``(n,)`` m: the largest clearance half-axis along ``axis`` (0 = x, 2 = z) of the drones
+    that can stand on each point (``shapes`` ``(n, K)`` from
+    :func:`core.scene.occupants.possible_shapes`)."""
+    return np.where(shapes, clearance.kind_axes[None, :, axis], 0.0).max(axis=1, initial=0.0)
 
 
 class _EditBox(pg.ViewBox):
@@ -159,12 +161,16 @@ class ProjectionPlot(pg.PlotWidget):
         (x0, y0), (x1, y1) = bounds[:, list(self.axes)]
         self.setRange(xRange=(x0, x1), yRange=(y0, y1), padding=0.05)
 
-    def show_points(self, points: np.ndarray, colours: np.ndarray, widths: np.ndarray) -> None:
+    def show_points(self, points: np.ndarray, colours: np.ndarray, widths: np.ndarray, reach: np.ndarray) -> None:
         """``points`` ``(n, 3)`` m filled with ``colours`` ``(n, 4)``, markers ``widths`` ``(n,)`` m
-        wide at the current zoom (one brush per distinct colour: the plotting library renders a
-        symbol per distinct brush)."""
+        wide at the current zoom; points farther than ``reach`` ``(n,)`` m from the working plane
+        (along the axis this view looks along) are faded: they are on another layer. One brush
+        per distinct colour: the plotting library renders a symbol per distinct brush."""
         look = theme.current()
         self.points, self.widths = points, widths
+        depth = 3 - sum(self.axes)
+        colours = np.array(colours, dtype=float)
+        colours[np.abs(points[:, depth] - self.plane) > reach, 3] *= OFF_PLANE_ALPHA
         distinct, which = np.unique(np.asarray(colours), axis=0, return_inverse=True)
         brushes = [pg.mkBrush(look.qcolor(tuple(c))) for c in distinct]
         self.scatter.setData(pos=points[:, list(self.axes)], brush=[brushes[k] for k in np.ravel(which)],
@@ -258,8 +264,8 @@ class LayoutView(QWidget):
         document.plan_changed.connect(self.refresh)
         document.selection_changed.connect(self._document_selection)
         document.formation_chosen.connect(self._formation_chosen)
-        self.altitude.valueChanged.connect(self.refresh_sections)
-        self.section_y.valueChanged.connect(self.refresh_sections)
+        self.altitude.valueChanged.connect(self.refresh)  # layers and cuts follow the working planes
+        self.section_y.valueChanged.connect(self.refresh)
         self.altitude.setToolTip("height of points added in the top view; obstacles are drawn where they "
                                  "meet this height")
         self.section_y.setToolTip("y of points added in the side view; obstacles are drawn where they meet "
@@ -349,11 +355,12 @@ class LayoutView(QWidget):
         scene = self.document.scene
         shapes = possible_shapes(scene)[f.name]
         close = too_close(points, scene.fleet.clearance, shapes)
-        colours, widths = self.point_colours(close), point_widths(scene.fleet.clearance, shapes)
+        clearance = scene.fleet.clearance
+        colours, widths = self.point_colours(close), 2.0 * occupant_reach(clearance, shapes, 0)
         self.top.plane, self.side.plane = self.altitude.value(), self.section_y.value()
-        for plot in (self.top, self.side):
+        for plot, reach_axis in ((self.top, 2), (self.side, 1)):
             plot.selected = sorted(self.selected)
-            plot.show_points(points, colours, widths)
+            plot.show_points(points, colours, widths, occupant_reach(clearance, shapes, reach_axis))
             plot.show_volume(self.document.scene.site.flight_volume.bounds)
         self.refresh_sections()
         n_fleet = len(self.document.scene.fleet.drones)

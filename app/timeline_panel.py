@@ -1,11 +1,13 @@
 """The timeline: start formation and hold, then each transition's target, assignment mode,
-duration (or as fast as possible) and hold time; transitions are inserted after, removed or moved
-with the selected row. Every change is one undo step."""
+duration (or as fast as possible) and hold time, and when it starts (from the current plan, or
+from the fixed durations before planning); transitions are inserted after, removed or moved with
+the selected row. Every change is one undo step."""
 
 from __future__ import annotations
 
 from dataclasses import replace
 
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
@@ -14,11 +16,12 @@ from PySide6.QtWidgets import (
     QHBoxLayout,
     QPushButton,
     QTableWidget,
+    QTableWidgetItem,
     QVBoxLayout,
     QWidget,
 )
 
-from core.scene import Transition
+from core.scene import Timeline, Transition
 
 from .document import Document
 
@@ -33,10 +36,27 @@ def _seconds(value: float, special: str | None = None) -> QDoubleSpinBox:
     return spin
 
 
-class TimelinePanel(QWidget):
-    """Editable table of transitions (target, assignment, duration, hold)."""
+def start_times(timeline: Timeline, flown: list[float] | None = None) -> list[str]:
+    """When each transition starts, as text: seconds after take-off from the durations ``flown``
+    (a current plan's, s), else from the timeline's fixed durations, with "+ fastest × k" for the
+    k earlier transitions flown as fast as possible (their length is known once planned)."""
+    out, t, unknown = [], timeline.start_hold, 0
+    for k, tr in enumerate(timeline.transitions):
+        out.append(f"{t:.1f} s" + (f" + fastest × {unknown}" if unknown else ""))
+        if flown is not None:
+            t += flown[k]
+        elif tr.duration == "fastest":
+            unknown += 1
+        else:
+            t += float(tr.duration)
+        t += tr.hold
+    return out
 
-    COLUMNS = ("to formation", "assignment", "duration", "hold")
+
+class TimelinePanel(QWidget):
+    """Editable table of transitions (target, assignment, duration, hold) and their start times."""
+
+    COLUMNS = ("to formation", "assignment", "duration", "hold", "starts at")
 
     def __init__(self, document: Document, parent=None):
         super().__init__(parent)
@@ -71,6 +91,8 @@ class TimelinePanel(QWidget):
         self.start.currentTextChanged.connect(self._commit)
         self.start_hold.editingFinished.connect(self._commit)
         document.scene_changed.connect(self.refresh)
+        document.plan_changed.connect(self.show_start_times)
+        document.plan_stale_changed.connect(self.show_start_times)
         self.refresh()
 
     def refresh(self) -> None:
@@ -97,7 +119,20 @@ class TimelinePanel(QWidget):
                 self.table.setCellWidget(row, col, w)
                 signal = w.currentTextChanged if isinstance(w, QComboBox) else w.editingFinished
                 signal.connect(self._commit)
+        self.show_start_times()
         self.table.resizeColumnsToContents()
+
+    def show_start_times(self, *_args) -> None:
+        """The read-only "starts at" column (exact once the scene as edited is planned)."""
+        plan = self.document.plan
+        flown = [t.duration for t in plan.transitions] if self.document.plan_is_current else None
+        for row, text in enumerate(start_times(self.document.scene.timeline, flown)):
+            item = QTableWidgetItem(text)
+            item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
+            item.setToolTip("seconds after take-off, from the plan" if flown else
+                            "seconds after take-off from the fixed durations; transitions flown as fast as "
+                            "possible add their time once planned")
+            self.table.setItem(row, 4, item)
 
     def transitions(self) -> tuple[Transition, ...]:
         out = []

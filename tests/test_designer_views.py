@@ -244,3 +244,46 @@ def test_a_screenshot_of_every_main_screen_in_both_looks(qtbot, make_window, tmp
         assert not np.array_equal(seen[look, "site"], seen[look, "summary"])
     assert not np.array_equal(seen["light", "site"], seen["dark", "site"])
     assert load_scene(SAMPLES / "viaduct_survey.json") == doc.scene  # looking changed nothing
+
+
+def test_points_off_the_working_altitude_are_faded_in_the_top_view(qtbot, document, layout):
+    """The lab sample's cube (two layers, 1.2 m apart, drones' vertical clearance well below that):
+    at the lower layer's altitude its points are opaque and the upper layer's faded, and the other
+    way round; the side view's plane does not change the top view."""
+    from app.layout_view import OFF_PLANE_ALPHA
+    cube = document.formation("cube")
+    document.choose_formation("cube")
+    z = cube.positions[:, 2]
+    low, high = z.min(), z.max()
+    for altitude, opaque in ((low, z == low), (high, z == high)):
+        layout.altitude.setValue(altitude)
+        alpha = np.array([b.color().alphaF() for b in layout.top.scatter.data["brush"]])
+        full = layout.point_colours(np.zeros(len(z), dtype=bool))[:, 3]  # the group colours' own opacity
+        assert np.allclose(alpha[opaque], full[opaque], atol=0.01)
+        assert np.allclose(alpha[~opaque], full[~opaque] * OFF_PLANE_ALPHA, atol=0.01)
+
+
+def test_start_times_before_planning_count_fixed_durations_and_name_the_fastest():
+    from app.timeline_panel import start_times
+    from core.scene import Timeline, Transition
+    timeline = Timeline(start="a", start_hold=2.0, transitions=(
+        Transition(to="b", duration=10.0, hold=1.0), Transition(to="c", hold=3.0), Transition(to="a", duration=5.0)))
+    assert start_times(timeline) == ["2.0 s", "13.0 s", "16.0 s + fastest × 1"]
+    assert start_times(timeline, flown=[10.0, 7.5, 5.0]) == ["2.0 s", "13.0 s", "23.5 s"]
+
+
+@needs_opengl
+def test_timeline_start_times_come_from_the_plan_and_match_the_flight(qtbot, make_window):
+    """Once planned, each transition's "starts at" is where the trajectory leaves the previous
+    formation: at that instant every drone stands on a point of it (checked on the trajectory)."""
+    window = make_window("lab_eight.json")
+    plan_in_window(qtbot, window)
+    doc, table = window.document, window.timeline.table
+    names = [doc.scene.timeline.start] + [t.to for t in doc.scene.timeline.transitions]
+    for row in range(table.rowCount()):
+        text = table.item(row, 4).text()
+        assert "fastest" not in text
+        at = doc.plan.trajectory.evaluate(np.array([float(text.removesuffix(" s"))]))[0]
+        points = doc.formation(names[row]).positions
+        gaps = np.linalg.norm(at[:, None] - points[None], axis=-1).min(axis=1)
+        assert gaps.max() < 1e-3  # the text is rounded to 0.1 s; the drones start from rest
