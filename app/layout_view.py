@@ -367,6 +367,9 @@ class LayoutView(QWidget):
         text = f"{f.name}: {len(points)} points for {n_fleet} drones"
         if f.groups is not None:
             text += f", {len(set(f.groups))} groups (colours)"
+        off = np.abs(points[:, 2] - self.altitude.value()) > occupant_reach(clearance, shapes, 2)
+        if off.any():
+            text += f"; {int(off.sum())} not at altitude {self.altitude.value():g} m (faded from above)"
         if close.any():
             text += f"; {int(close.sum())} points closer than the clearance (red)"
         self.status.setText(text + ". Shift-click adds a point on top of others.")

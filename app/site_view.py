@@ -16,6 +16,7 @@ from core.scene.meshes import feature_edges
 
 from . import theme
 from .document import Document
+from .mesh_shading import HEADLIGHT
 
 #: Curve samples per piece (polyline vertices).
 CURVE_SAMPLES = 16
@@ -101,7 +102,7 @@ class SiteView(gl.GLViewWidget):
             self.removeItem(item)
         self._mesh_items = [
             gl.GLMeshItem(vertexes=np.asarray(m.mesh.vertices, dtype=np.float32), faces=np.asarray(m.mesh.faces),
-                          smooth=False, shader="shaded", color=look.obstacle, glOptions="opaque")
+                          smooth=False, shader=HEADLIGHT, color=look.obstacle, glOptions="opaque")
             for m in self.document.meshes()]
         # Their creases as lines: faces turned from the light stay legible.
         self._mesh_items += [gl.GLLinePlotItem(pos=feature_edges(m.mesh).astype(np.float32), mode="lines",

@@ -33,7 +33,7 @@ class Theme:
     canvas: RGBA
     canvas_text: RGBA
     grid: RGBA
-    obstacle: RGBA  # the shaded shader keeps 0.2–1.0 of it, by the angle to its light
+    obstacle: RGBA  # the mesh shading keeps 45–100 % of it, by the angle to the camera
     obstacle_edge: RGBA
     volume: RGBA
     keep_out: RGBA
@@ -59,7 +59,7 @@ DARK = Theme(
     name="dark", window="#22262d", panel="#1a1d22", text="#e3e7ec", muted_text="#9aa3ad", accent="#3aa6a0",
     accent_text="#0d1214",
     canvas=(0.075, 0.085, 0.10, 1.0), canvas_text=(0.78, 0.82, 0.87, 1.0), grid=(0.62, 0.68, 0.75, 0.22),
-    obstacle=(0.86, 0.84, 0.80, 1.0), obstacle_edge=(0.93, 0.93, 0.90, 0.55), volume=(0.35, 0.65, 0.95, 0.6),
+    obstacle=(0.74, 0.72, 0.68, 1.0), obstacle_edge=(0.93, 0.93, 0.90, 0.55), volume=(0.35, 0.65, 0.95, 0.6),
     keep_out=(0.95, 0.45, 0.25, 0.35), formation=(0.85, 0.87, 0.90, 0.9), selected_outline=(1.0, 1.0, 1.0, 1.0),
     too_close=(1.0, 0.30, 0.30, 1.0), ellipsoid=(1.0, 0.85, 0.2, 0.25), limit=(1.0, 0.42, 0.42, 1.0),
     cursor=(0.95, 0.95, 0.95, 1.0), dimmed=(0.45, 0.48, 0.52, 0.35), hue_saturation=0.62, hue_value=0.95)
@@ -68,7 +68,7 @@ LIGHT = Theme(
     name="light", window="#eef0f3", panel="#ffffff", text="#1b2027", muted_text="#5c6670", accent="#1f7f86",
     accent_text="#ffffff",
     canvas=(0.985, 0.985, 0.98, 1.0), canvas_text=(0.18, 0.21, 0.25, 1.0), grid=(0.30, 0.34, 0.40, 0.25),
-    obstacle=(0.93, 0.91, 0.87, 1.0), obstacle_edge=(0.25, 0.26, 0.28, 0.6), volume=(0.10, 0.40, 0.78, 0.7),
+    obstacle=(0.80, 0.78, 0.74, 1.0), obstacle_edge=(0.25, 0.26, 0.28, 0.6), volume=(0.10, 0.40, 0.78, 0.7),
     keep_out=(0.90, 0.38, 0.15, 0.35), formation=(0.30, 0.33, 0.38, 0.9), selected_outline=(0.05, 0.05, 0.05, 1.0),
     too_close=(0.85, 0.10, 0.10, 1.0), ellipsoid=(0.95, 0.65, 0.0, 0.30), limit=(0.80, 0.15, 0.15, 1.0),
     cursor=(0.10, 0.12, 0.15, 1.0), dimmed=(0.55, 0.57, 0.60, 0.30), hue_saturation=0.80, hue_value=0.58)
