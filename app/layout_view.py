@@ -261,7 +261,7 @@ class LayoutView(QWidget):
             plot.box.dragged.connect(lambda x, y, done, plot=plot: self._drag(plot, x, y, done))
             plot.scene().sigMouseMoved.connect(lambda pos, plot=plot: self._hover(plot, pos))
         document.scene_changed.connect(self.refresh)
-        document.plan_changed.connect(self.refresh)
+        document.plan_changed.connect(self._document_selection)  # who stands where may have changed
         document.selection_changed.connect(self._document_selection)
         document.formation_chosen.connect(self._formation_chosen)
         self.altitude.valueChanged.connect(self.refresh)  # layers and cuts follow the working planes
@@ -357,17 +357,18 @@ class LayoutView(QWidget):
         close = too_close(points, scene.fleet.clearance, shapes)
         clearance = scene.fleet.clearance
         colours, widths = self.point_colours(close), 2.0 * occupant_reach(clearance, shapes, 0)
+        reach_z, reach_y = occupant_reach(clearance, shapes, 2), occupant_reach(clearance, shapes, 1)
         self.top.plane, self.side.plane = self.altitude.value(), self.section_y.value()
-        for plot, reach_axis in ((self.top, 2), (self.side, 1)):
+        for plot, reach in ((self.top, reach_z), (self.side, reach_y)):
             plot.selected = sorted(self.selected)
-            plot.show_points(points, colours, widths, occupant_reach(clearance, shapes, reach_axis))
+            plot.show_points(points, colours, widths, reach)
             plot.show_volume(self.document.scene.site.flight_volume.bounds)
         self.refresh_sections()
         n_fleet = len(self.document.scene.fleet.drones)
         text = f"{f.name}: {len(points)} points for {n_fleet} drones"
         if f.groups is not None:
             text += f", {len(set(f.groups))} groups (colours)"
-        off = np.abs(points[:, 2] - self.altitude.value()) > occupant_reach(clearance, shapes, 2)
+        off = np.abs(points[:, 2] - self.altitude.value()) > reach_z
         if off.any():
             text += f"; {int(off.sum())} not at altitude {self.altitude.value():g} m (faded from above)"
         if close.any():

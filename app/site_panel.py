@@ -8,6 +8,7 @@ import os
 from dataclasses import dataclass, replace
 from pathlib import Path
 
+from pydantic import ValidationError
 from PySide6.QtCore import QTimer
 from PySide6.QtWidgets import (
     QDoubleSpinBox,
@@ -95,8 +96,10 @@ class RecordTable(QTableWidget):
         try:
             edited = column.edited(record, item.text())
             problem = box_problem(edited) if isinstance(edited, Box) else None
-        except ValueError as exc:
-            problem = str(exc).splitlines()[-1].strip() if str(exc) else "not a valid value"
+        except ValidationError as exc:  # the scene model's own reason
+            problem = exc.errors()[0]["msg"].removeprefix("Value error, ")
+        except ValueError:
+            problem = f"{item.text()!r} is not a number"
         if problem is not None:
             self._refuse(f"{self.what} {getattr(record, 'name', r)}: {column.label}: {problem}; the edit was not "
                          "applied")

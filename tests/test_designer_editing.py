@@ -64,7 +64,7 @@ def test_keep_out_boxes_added_edited_and_removed_reach_the_layout(qtbot, documen
     _type_into(site_panel.boxes, row, 3, "9")  # z min above z max: refused
     assert document.scene.site.keep_out[-1] == edited and "z min (m)" in messages[-1]
     _type_into(site_panel.boxes, row, 1, "not a number")
-    assert document.scene.site.keep_out[-1] == edited and "x min (m)" in messages[-1]
+    assert document.scene.site.keep_out[-1] == edited and "x min (m): 'not a number' is not a number" in messages[-1]
     site_panel.boxes.setCurrentCell(row, 0)
     site_panel.remove_box()
     assert document.scene.site.keep_out == before.site.keep_out
@@ -73,7 +73,7 @@ def test_keep_out_boxes_added_edited_and_removed_reach_the_layout(qtbot, documen
     assert document.scene == before
 
 
-def test_a_mesh_is_added_placed_saved_and_read_back(qtbot, document, site_panel, tmp_path):
+def test_a_mesh_is_added_placed_saved_and_read_back(qtbot, document, site_panel, tmp_path, messages):
     """A box mesh written by trimesh, added and moved 4 m in x: the site's mesh bounds move by
     exactly that (trimesh's own bounds of the placed mesh), and the saved scene reads back equal."""
     import trimesh
@@ -89,6 +89,8 @@ def test_a_mesh_is_added_placed_saved_and_read_back(qtbot, document, site_panel,
     _type_into(site_panel.meshes, row, 5, "4")  # move x
     mesh = document.meshes()[-1].mesh
     assert np.allclose(mesh.bounds, original.bounds + [[4.0, 0, 0], [4.0, 0, 0]])
+    _type_into(site_panel.meshes, row, 3, "-2")  # scale: refused with the model's reason
+    assert document.scene.site.meshes[-1].scale == 1.0 and "scale: Input should be greater than 0" in messages[-1]
     document.save(scene_path)
     again = load_scene(scene_path)
     assert again == document.scene
