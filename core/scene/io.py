@@ -44,7 +44,8 @@ EXPORT_STAMP_FIELD = "export_status"
 
 
 def scene_from_dict(data: Any, source: str = "<scene>", base_dir: Path | None = None, check: bool = True) -> Scene:
-    """Build a checked :class:`Scene` from parsed JSON; CSV formations are read from ``base_dir``.
+    """Build a :class:`Scene` from parsed JSON, checked unless ``check`` is False (see
+    :func:`load_scene`); CSV formations are read from ``base_dir``.
 
     A top-level :data:`EXPORT_STAMP_FIELD` object (written by exports) is ignored.
     """
