@@ -31,7 +31,9 @@ from .document import Document
 
 
 def _spin(value: float, low: float = -10000.0, high: float = 10000.0, suffix: str = " m") -> QDoubleSpinBox:
-    return QDoubleSpinBox(minimum=low, maximum=high, value=value, decimals=2, singleStep=0.5, suffix=suffix)
+    spin = QDoubleSpinBox(minimum=low, maximum=high, value=value, decimals=2, singleStep=0.5, suffix=suffix)
+    spin.setMinimumWidth(70)  # narrower than the widest value of its range: three fit a narrow panel
+    return spin
 
 
 class GeneratorBox(QGroupBox):

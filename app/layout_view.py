@@ -237,7 +237,9 @@ class LayoutView(QWidget):
                                         toolTip="y of points added in the side view")
         self.grid = QDoubleSpinBox(minimum=0.05, maximum=100, value=1.0, suffix=" m", singleStep=0.25)
         self.snap = QCheckBox("snap to grid", checked=True)
-        self.status = QLabel()
+        self.status = QLabel(wordWrap=True)
+        for spin in (self.altitude, self.section_y, self.grid):
+            spin.setMinimumWidth(80)  # below their range's text width: the window fits 1280 px
         controls = QFormLayout()
         row = QHBoxLayout()
         for label, w in (("altitude", self.altitude), ("side-view y", self.section_y), ("grid", self.grid)):

@@ -131,6 +131,7 @@ class SitePanel(QScrollArea):
             for i, a in enumerate(AXES):
                 spin = QDoubleSpinBox(minimum=-100_000, maximum=100_000, decimals=2, singleStep=1.0,
                                       prefix=f"{a} ", suffix=" m")
+                spin.setMinimumWidth(80)  # narrower than its range's widest text: the panel stays narrow
                 spin.editingFinished.connect(self._volume_edited)
                 grid.addWidget(spin, row, 1 + i)
                 spins.append(spin)

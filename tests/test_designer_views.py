@@ -96,6 +96,7 @@ def test_plots_and_layout_are_legible_at_1280_by_720(qtbot, make_window):
     window.resize(1280, 720)
     plan_in_window(qtbot, window)
     qtbot.wait(100)
+    assert window.width() == 1280 and window.minimumSizeHint().width() <= 1280  # nothing forces it wider
     for plot in window.plots.plots:
         assert plot.vb.height() >= 90 and plot.vb.width() >= 250, (plot.vb.width(), plot.vb.height())
     window.centre.setCurrentWidget(window.layout_view)
