@@ -54,6 +54,9 @@ class MainWindow(QMainWindow):
     def __init__(self, document: Document):
         super().__init__()
         self.document = document
+        # The remembered look first: the views draw in it as they are built (not once more after).
+        look = theme.THEMES.get(str(document.settings.value(THEME_KEY, theme.DARK.name)), theme.DARK)
+        theme.apply_to_application(QApplication.instance(), look)
         self.runner = PlanRunner(document, self)
         self.site = SiteView(document)
         self.layout_view = LayoutView(document)
@@ -111,7 +114,7 @@ class MainWindow(QMainWindow):
         document.undo_stack.cleanChanged.connect(self._update_title)
         document.formation_chosen.connect(self.site.show_formation)
         self._update_title()
-        self.set_theme(str(document.settings.value(THEME_KEY, theme.DARK.name)))
+        self.theme_actions[look.name].setChecked(True)
         self.resize(1500, 950)
         self.resizeDocks([inspect], [420], Qt.Orientation.Vertical)
 
